@@ -1,0 +1,1 @@
+//! One file per job; each returns a serialisable outcome and never prints.

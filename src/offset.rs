@@ -1,0 +1,1 @@
+//! offset (being written).
