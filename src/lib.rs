@@ -5,6 +5,8 @@
 //! → `commands` → `report`. `stats` takes plain numbers and knows no cameras. The binary
 //! (`main.rs`, `cli.rs`) is a thin layer: argument parsing, files, renderers, exit codes.
 
+#![deny(clippy::float_cmp)]
+
 pub mod tol;
 
 pub mod geometry;
