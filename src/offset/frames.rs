@@ -1,0 +1,159 @@
+//! Per-frame solve of both objects and the offsets derived from them: the frame records that
+//! every job (audit, survey, compare) builds its statistics from.
+//!
+//! Frames are solved in parallel in fixed blocks; inside a block each pose warm-starts from the
+//! previous frame's. Block boundaries depend only on frame order, so results do not depend on
+//! thread scheduling.
+
+use nalgebra::{Isometry3, Matrix6, Vector3, Vector6};
+use rayon::prelude::*;
+
+use crate::camera::Camera;
+use crate::geometry::Mount;
+use crate::model::KeypointModel;
+use crate::pnp::{solve_pose, PnpOptions, PoseEstimate, PoseStatus, RejectionReason};
+use crate::session::FrameDetections;
+
+use super::{drogue_point_in_camera, mount_deviation, observed_mount};
+
+/// Frames per warm-start block: long enough that cold starts are rare, short enough to keep
+/// both cores busy on a few thousand frames.
+const BLOCK_FRAMES: usize = 64;
+
+/// Fit summary of one solved object.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Fit {
+    /// Weighted reprojection chi-square over inliers, and its degrees of freedom.
+    pub chi2: f64,
+    pub dof: usize,
+    pub keypoints: usize,
+    pub inliers: usize,
+    pub rank: usize,
+    pub ill_conditioned: bool,
+    pub ambiguous: bool,
+}
+
+impl Fit {
+    fn of(estimate: &PoseEstimate) -> Self {
+        Self {
+            chi2: estimate.chi2,
+            dof: estimate.dof,
+            keypoints: estimate.inliers.len(),
+            inliers: estimate.inliers.iter().filter(|&&b| b).count(),
+            rank: estimate.rank,
+            ill_conditioned: estimate.ill_conditioned,
+            ambiguous: estimate.ambiguous,
+        }
+    }
+}
+
+/// Everything later stages need from one frame.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FrameRecord {
+    pub frame: u64,
+    pub time_s: f64,
+    pub probe: Result<Fit, RejectionReason>,
+    pub drogue: Result<Fit, RejectionReason>,
+    /// The observed mount (from the probe solution).
+    pub observed_mount: Option<Mount>,
+    /// Deviation from the reference mount in report units (mm, deg) and its information
+    /// (rank-aware); present when the probe was solved.
+    pub deviation: Option<Vector6<f64>>,
+    pub deviation_information: Option<Matrix6<f64>>,
+    /// The drogue reference point in the camera frame (m); present when the drogue was solved.
+    pub drogue_camera_m: Option<Vector3<f64>>,
+    /// The probe reference point in body axes (m), constant; kept so records stand alone.
+    pub probe_reference_b: Vector3<f64>,
+}
+
+impl FrameRecord {
+    /// The dual-object probe-to-drogue vector in body axes (m), when both objects were solved.
+    pub fn dual_vector_m(&self) -> Option<Vector3<f64>> {
+        let mount = self.observed_mount?;
+        let x_c = self.drogue_camera_m?;
+        Some(super::vector_with_mount(&mount, &self.probe_reference_b, &x_c))
+    }
+
+    /// The vector a pipeline assuming `mount` would report (m), when the drogue was solved.
+    pub fn vector_with_mount_m(&self, mount: &Mount) -> Option<Vector3<f64>> {
+        let x_c = self.drogue_camera_m?;
+        Some(super::vector_with_mount(mount, &self.probe_reference_b, &x_c))
+    }
+}
+
+/// What the per-frame solve needs: the camera, both models, the mount deviations are measured
+/// from, and the solver settings.
+#[derive(Debug, Clone)]
+pub struct FrameSolver<'a> {
+    pub camera: &'a Camera,
+    pub probe: &'a KeypointModel,
+    pub drogue: &'a KeypointModel,
+    pub reference: Mount,
+    pub options: PnpOptions,
+}
+
+/// Warm starts carried from one frame to the next inside a block.
+#[derive(Debug, Clone, Default)]
+struct WarmStarts {
+    probe: Option<Isometry3<f64>>,
+    drogue: Option<Isometry3<f64>>,
+}
+
+impl FrameSolver<'_> {
+    /// Solves a batch of frames (any length), in parallel blocks, keeping frame order.
+    pub fn solve_batch(&self, frames: &[FrameDetections]) -> Vec<FrameRecord> {
+        frames
+            .par_chunks(BLOCK_FRAMES)
+            .flat_map_iter(|block| {
+                let mut warm = WarmStarts::default();
+                block
+                    .iter()
+                    .map(|f| self.solve_frame(f, &mut warm))
+                    .collect::<Vec<_>>()
+            })
+            .collect()
+    }
+
+    fn solve_frame(&self, det: &FrameDetections, warm: &mut WarmStarts) -> FrameRecord {
+        let probe = solve_pose(
+            self.camera,
+            self.probe,
+            &det.probe,
+            warm.probe.as_ref(),
+            &self.options,
+        );
+        let drogue = solve_pose(
+            self.camera,
+            self.drogue,
+            &det.drogue,
+            warm.drogue.as_ref(),
+            &self.options,
+        );
+        warm.probe = probe.estimate().map(|e| e.pose);
+        warm.drogue = drogue.estimate().map(|e| e.pose);
+        let deviation = probe
+            .estimate()
+            .map(|e| mount_deviation(e, &self.reference));
+        let drogue_camera_m = drogue
+            .estimate()
+            .map(|e| drogue_point_in_camera(e, &self.drogue.reference_point()).0);
+        FrameRecord {
+            frame: det.frame,
+            time_s: det.time_s,
+            probe: fit_or_reason(&probe),
+            drogue: fit_or_reason(&drogue),
+            observed_mount: probe.estimate().map(|e| observed_mount(&e.pose)),
+            deviation: deviation.as_ref().map(|d| d.value),
+            deviation_information: deviation.map(|d| d.information),
+            drogue_camera_m,
+            probe_reference_b: self.probe.reference_point(),
+        }
+    }
+}
+
+fn fit_or_reason(status: &PoseStatus) -> Result<Fit, RejectionReason> {
+    match status {
+        PoseStatus::Solved(e) => Ok(Fit::of(e)),
+        PoseStatus::Rejected(r) => Err(r.reason),
+    }
+}
