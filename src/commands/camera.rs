@@ -37,6 +37,7 @@ pub enum FocalMethod {
     /// FocalLength × FocalPlaneX/YResolution (sensor density), the preferred route.
     FocalPlaneResolution,
     /// FocalLengthIn35mmFilm on the image diagonal, the fallback.
+    #[serde(rename = "equivalent_35mm")]
     Equivalent35mm,
 }
 
@@ -59,9 +60,9 @@ pub struct ExifIntrinsics {
     pub camera: CameraFile,
 }
 
-/// Why the result is approximate or what was assumed, each with advice.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-#[serde(tag = "kind", rename_all = "snake_case")]
+/// Why the result is approximate or what was assumed, each with advice. Serialised as
+/// `{kind, message}` plus the variant's numbers, so a JSON report carries the advice too.
+#[derive(Debug, Clone, PartialEq)]
 pub enum ExifWarning {
     FocalUncertain,
     PrincipalPointAssumed,
@@ -73,6 +74,42 @@ pub enum ExifWarning {
     CroppedOrRotated { scale_x: f64, scale_y: f64 },
     Equivalent35mm,
     DigitalZoom { ratio: f64 },
+}
+
+impl ExifWarning {
+    /// A stable snake_case name for reports.
+    pub fn kind(&self) -> &'static str {
+        match self {
+            Self::FocalUncertain => "focal_uncertain",
+            Self::PrincipalPointAssumed => "principal_point_assumed",
+            Self::DistortionAssumedZero => "distortion_assumed_zero",
+            Self::ResolutionUnitAssumedInch => "resolution_unit_assumed_inch",
+            Self::SquarePixelsAssumed => "square_pixels_assumed",
+            Self::PixelDimensionsMissing => "pixel_dimensions_missing",
+            Self::Resampled { .. } => "resampled",
+            Self::CroppedOrRotated { .. } => "cropped_or_rotated",
+            Self::Equivalent35mm => "equivalent_35mm",
+            Self::DigitalZoom { .. } => "digital_zoom",
+        }
+    }
+}
+
+impl Serialize for ExifWarning {
+    fn serialize<S: serde::Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        use serde::ser::SerializeMap;
+        let mut map = serializer.serialize_map(None)?;
+        map.serialize_entry("kind", self.kind())?;
+        map.serialize_entry("message", &self.to_string())?;
+        match self {
+            Self::Resampled { scale_x, scale_y } | Self::CroppedOrRotated { scale_x, scale_y } => {
+                map.serialize_entry("scale_x", scale_x)?;
+                map.serialize_entry("scale_y", scale_y)?;
+            }
+            Self::DigitalZoom { ratio } => map.serialize_entry("ratio", ratio)?,
+            _ => {}
+        }
+        map.end()
+    }
 }
 
 impl fmt::Display for ExifWarning {
@@ -122,10 +159,7 @@ pub enum FromExifError {
     #[error("{}: the EXIF data cannot be read ({reason})", .path.display())]
     BadExif { path: PathBuf, reason: String },
     #[error("{}: {source}", .path.display())]
-    Tags {
-        path: PathBuf,
-        source: ExifTagError,
-    },
+    Tags { path: PathBuf, source: ExifTagError },
     #[error("{}: the derived camera is invalid: {source}", .path.display())]
     InvalidCamera {
         path: PathBuf,
@@ -309,7 +343,6 @@ fn from_focal_plane(
         reading("FocalLength", focal_mm),
         reading("FocalPlaneXResolution", res_x),
     ];
-    let unit_mm = plane_unit_mm(tags.plane_resolution_unit, &mut tags_used, &mut warnings)?;
     let res_y = match tags.plane_y_resolution {
         Some(res_y) => {
             tags_used.push(reading("FocalPlaneYResolution", res_y));
@@ -320,6 +353,7 @@ fn from_focal_plane(
             res_x
         }
     };
+    let unit_mm = plane_unit_mm(tags.plane_resolution_unit, &mut tags_used, &mut warnings)?;
     let (scale_x, scale_y) = resample_scale(tags, size, &mut tags_used, &mut warnings);
     Ok(FocalEstimate {
         method: FocalMethod::FocalPlaneResolution,
@@ -395,7 +429,9 @@ fn reading(tag: &str, value: f64) -> TagReading {
 
 /// The camera file as YAML text, headed by comments saying it is approximate, which tags it came
 /// from and what was assumed.
-pub fn render_camera_yaml(outcome: &ExifIntrinsics) -> Result<String, serde_saphyr::SerializeError> {
+pub fn render_camera_yaml(
+    outcome: &ExifIntrinsics,
+) -> Result<String, serde_saphyr::SerializeError> {
     let tags: Vec<String> = outcome
         .tags_used
         .iter()
@@ -527,11 +563,15 @@ fn positive_size(width_px: u32, height_px: u32) -> Result<ImageSize, &'static st
 }
 
 fn be_u16(bytes: &[u8], pos: usize) -> Option<u16> {
-    Some(u16::from_be_bytes(bytes.get(pos..pos + 2)?.try_into().ok()?))
+    Some(u16::from_be_bytes(
+        bytes.get(pos..pos + 2)?.try_into().ok()?,
+    ))
 }
 
 fn be_u32(bytes: &[u8], pos: usize) -> Option<u32> {
-    Some(u32::from_be_bytes(bytes.get(pos..pos + 4)?.try_into().ok()?))
+    Some(u32::from_be_bytes(
+        bytes.get(pos..pos + 4)?.try_into().ok()?,
+    ))
 }
 
 /// The focal tags of the primary image (its Exif IFD), checked and converted to numbers.
@@ -659,7 +699,10 @@ mod tests {
             ..FocalTags::default()
         };
         let err = estimate_focal(&tags, size(400, 295)).unwrap_err();
-        assert!(err.to_string().contains("FocalPlaneResolutionUnit"), "{err}");
+        assert!(
+            err.to_string().contains("FocalPlaneResolutionUnit"),
+            "{err}"
+        );
     }
 
     #[test]
@@ -675,7 +718,10 @@ mod tests {
         let est = estimate_focal(&tags, size(2950, 4000)).unwrap();
         assert!(matches!(
             est.warnings.as_slice(),
-            [ExifWarning::SquarePixelsAssumed, ExifWarning::CroppedOrRotated { .. }]
+            [
+                ExifWarning::SquarePixelsAssumed,
+                ExifWarning::CroppedOrRotated { .. }
+            ]
         ));
     }
 
