@@ -161,7 +161,9 @@ def write_base(path, size):
 
 
 def write_tags(path, tags):
-    args = [f"-ExifIFD:{k}={v}" if k not in ("Make", "Model") else f"-IFD0:{k}={v}" for k, v in tags.items()]
+    # Make and Model belong to IFD0; every focal tag to the Exif sub-IFD.
+    group = {"Make": "IFD0", "Model": "IFD0"}
+    args = [f"-{group.get(k, 'ExifIFD')}:{k}={v}" for k, v in tags.items()]
     subprocess.run(["exiftool", "-q", "-overwrite_original", "-n", *args, path], check=True)
 
 

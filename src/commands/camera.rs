@@ -115,16 +115,47 @@ impl Serialize for ExifWarning {
 impl fmt::Display for ExifWarning {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
-            Self::FocalUncertain => write!(f, "focal length from EXIF is nominal: allow about ±5-10 % (common practice, not a measurement); calibrate for a measured camera"),
-            Self::PrincipalPointAssumed => write!(f, "principal point assumed at the image centre; calibrate to measure it"),
-            Self::DistortionAssumedZero => write!(f, "lens distortion assumed zero; calibrate if keypoints lie near the image edges"),
-            Self::ResolutionUnitAssumedInch => write!(f, "FocalPlaneResolutionUnit missing: the EXIF default, inch, was assumed"),
-            Self::SquarePixelsAssumed => write!(f, "FocalPlaneYResolution missing: square pixels assumed (fy = fx)"),
-            Self::PixelDimensionsMissing => write!(f, "PixelXDimension/PixelYDimension missing: the stored image is assumed not resampled"),
-            Self::Resampled { scale_x, scale_y } => write!(f, "stored image is resampled from the EXIF pixel dimensions: focal length scaled by {scale_x:.6} (x) and {scale_y:.6} (y)"),
-            Self::CroppedOrRotated { scale_x, scale_y } => write!(f, "stored image does not scale the EXIF pixel dimensions evenly ({scale_x:.6} in x, {scale_y:.6} in y): it was probably cropped or rotated, so the focal length may be off; use an original camera file"),
-            Self::Equivalent35mm => write!(f, "focal length from FocalLengthIn35mmFilm on the image diagonal: the tag is a whole number of mm and its crop factor is maker-dependent, so expect a few % error"),
-            Self::DigitalZoom { ratio } => write!(f, "DigitalZoomRatio {ratio} multiplies the focal length (some makers already include it in FocalLengthIn35mmFilm)"),
+            Self::FocalUncertain => f.write_str(
+                "focal length from EXIF is nominal: allow about ±5-10 % (common practice, not a \
+                 measurement); calibrate for a measured camera",
+            ),
+            Self::PrincipalPointAssumed => {
+                f.write_str("principal point assumed at the image centre; calibrate to measure it")
+            }
+            Self::DistortionAssumedZero => f.write_str(
+                "lens distortion assumed zero; calibrate if keypoints lie near the image edges",
+            ),
+            Self::ResolutionUnitAssumedInch => {
+                f.write_str("FocalPlaneResolutionUnit missing: the EXIF default, inch, was assumed")
+            }
+            Self::SquarePixelsAssumed => {
+                f.write_str("FocalPlaneYResolution missing: square pixels assumed (fy = fx)")
+            }
+            Self::PixelDimensionsMissing => f.write_str(
+                "PixelXDimension/PixelYDimension missing: the stored image is assumed not \
+                 resampled",
+            ),
+            Self::Resampled { scale_x, scale_y } => write!(
+                f,
+                "stored image is resampled from the EXIF pixel dimensions: focal length scaled \
+                 by {scale_x:.6} (x) and {scale_y:.6} (y)"
+            ),
+            Self::CroppedOrRotated { scale_x, scale_y } => write!(
+                f,
+                "stored image does not scale the EXIF pixel dimensions evenly ({scale_x:.6} in \
+                 x, {scale_y:.6} in y): it was probably cropped or rotated, so the focal length \
+                 may be off; use the camera's original file"
+            ),
+            Self::Equivalent35mm => f.write_str(
+                "focal length from FocalLengthIn35mmFilm on the image diagonal: the tag is a \
+                 whole number of mm and its crop factor is maker-dependent, so expect a few % \
+                 error",
+            ),
+            Self::DigitalZoom { ratio } => write!(
+                f,
+                "DigitalZoomRatio {ratio} multiplies the focal length (some makers already \
+                 include it in FocalLengthIn35mmFilm)"
+            ),
         }
     }
 }
@@ -132,7 +163,11 @@ impl fmt::Display for ExifWarning {
 /// A problem with the EXIF tags themselves (the caller adds the file name).
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum ExifTagError {
-    #[error("no usable focal length tags (missing: {}); expected FocalLength with FocalPlaneXResolution, or FocalLengthIn35mmFilm", .0.join(", "))]
+    #[error(
+        "no usable focal length tags (missing: {}); expected FocalLength with \
+         FocalPlaneXResolution, or FocalLengthIn35mmFilm",
+        .0.join(", ")
+    )]
     NoFocalTags(Vec<&'static str>),
     #[error("EXIF tag {tag} is {value}; expected {expected}")]
     Invalid {
@@ -150,11 +185,18 @@ pub enum FromExifError {
         path: PathBuf,
         source: std::io::Error,
     },
-    #[error("{} is not an image this command reads (expected a JPEG, PNG or TIFF file)", .path.display())]
+    #[error(
+        "{} is not an image this command reads (expected a JPEG, PNG or TIFF file)",
+        .path.display()
+    )]
     NotAnImage { path: PathBuf },
     #[error("{}: broken image header ({reason})", .path.display())]
     BadHeader { path: PathBuf, reason: &'static str },
-    #[error("{} has no EXIF data (expected an Exif APP1 segment, a PNG eXIf chunk or TIFF tags); write the camera file by hand or calibrate", .path.display())]
+    #[error(
+        "{} has no EXIF data (expected an Exif APP1 segment, a PNG eXIf chunk or TIFF tags); \
+         write the camera file by hand or calibrate",
+        .path.display()
+    )]
     NoExif { path: PathBuf },
     #[error("{}: the EXIF data cannot be read ({reason})", .path.display())]
     BadExif { path: PathBuf, reason: String },
@@ -290,8 +332,9 @@ pub fn resolution_unit_mm(code: u32) -> Option<f64> {
     }
 }
 
-/// f[px] = FocalLength[mm] × FocalPlaneResolution[px/unit] / unit[mm] (EXIF 2.3 definitions of
-/// FocalLength and FocalPlaneX/YResolution: pixels of the image per unit length on the focal plane).
+/// f[px] = FocalLength[mm] × FocalPlaneResolution[px/unit] / unit[mm], from the EXIF 2.3
+/// definitions of FocalLength and FocalPlaneX/YResolution (pixels of the image per unit length
+/// on the focal plane).
 pub fn focal_px_from_plane_resolution(focal_mm: f64, pixels_per_unit: f64, unit_mm: f64) -> f64 {
     focal_mm * pixels_per_unit / unit_mm
 }
