@@ -50,3 +50,10 @@ pub const AMBIGUITY_DELTA_CHI2: f64 = 4.0;
 
 /// Iteration cap for solving the inverse of a continuous distribution function by bisection.
 pub const QUANTILE_MAX_ITER: usize = 200;
+
+/// EXIF intrinsics: when the stored image's width and height scale the EXIF pixel dimensions
+/// (PixelXDimension, PixelYDimension) by factors that differ by more than this fraction, the file
+/// was cropped, rotated or resampled unevenly, so the focal-plane density no longer maps cleanly
+/// to the stored pixels. A plain resize rounds each side to whole pixels, which stays well below
+/// 1 % for images of 100 px or more.
+pub const EXIF_SCALE_MISMATCH_REL: f64 = 0.01;
