@@ -1,1 +1,3 @@
 //! One file per job; each returns a serialisable outcome and never prints.
+
+pub mod audit;

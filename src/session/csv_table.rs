@@ -71,6 +71,8 @@ pub(super) struct CsvTable {
     /// For each spec column, its index in the file's records (`None`: optional and absent).
     index: Vec<Option<usize>>,
     record: ByteRecord,
+    /// Data rows read so far.
+    rows: u64,
 }
 
 const UTF8_BOM: &[u8] = b"\xEF\xBB\xBF";
@@ -102,6 +104,7 @@ impl CsvTable {
             index: vec![None; names.len()],
             names,
             record: ByteRecord::new(),
+            rows: 0,
         };
         if !table.read_record()? {
             let problem = Problem::EmptyFile {
@@ -151,11 +154,17 @@ impl CsvTable {
             .map_err(|e| self.csv_error(e))
     }
 
-    /// Reads the next data row; `false` at the end of the text.
+    /// Reads the next data row; `false` at the end of the text. A table without any data row is
+    /// an error: every input table must say something.
     pub fn next_row(&mut self) -> Result<bool, InputError> {
         if !self.read_record()? {
+            if self.rows == 0 {
+                let after_header = self.line() + 1;
+                return Err(InputError::at(&self.path, after_header, None, Problem::NoRows));
+            }
             return Ok(false);
         }
+        self.rows += 1;
         let width = self.index.iter().flatten().count();
         if self.record.len() != width {
             let problem = Problem::FieldCount {
