@@ -71,6 +71,8 @@ pub(super) struct CsvTable {
     /// For each spec column, its index in the file's records (`None`: optional and absent).
     index: Vec<Option<usize>>,
     record: ByteRecord,
+    /// Line of the header in the file.
+    header_line: u64,
     /// Data rows read so far.
     rows: u64,
 }
@@ -104,6 +106,7 @@ impl CsvTable {
             index: vec![None; names.len()],
             names,
             record: ByteRecord::new(),
+            header_line: line_offset + 1,
             rows: 0,
         };
         if !table.read_record()? {
@@ -112,6 +115,7 @@ impl CsvTable {
             };
             return Err(InputError::at(path, line_offset + 1, None, problem));
         }
+        table.header_line = table.line();
         table.map_header(spec)?;
         Ok(table)
     }
@@ -159,8 +163,13 @@ impl CsvTable {
     pub fn next_row(&mut self) -> Result<bool, InputError> {
         if !self.read_record()? {
             if self.rows == 0 {
-                let after_header = self.line() + 1;
-                return Err(InputError::at(&self.path, after_header, None, Problem::NoRows));
+                let after_header = self.header_line + 1;
+                return Err(InputError::at(
+                    &self.path,
+                    after_header,
+                    None,
+                    Problem::NoRows,
+                ));
             }
             return Ok(false);
         }

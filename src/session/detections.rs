@@ -18,7 +18,7 @@ use crate::model::KeypointModel;
 const SPEC: TableSpec = TableSpec {
     required: &["frame", "time_s", "object", "point", "u", "v"],
     optional: &["sigma_px"],
-    header: "frame,time_s,object,point,u,v and optionally sigma_px",
+    header: "frame,time_s,object,point,u,v[,sigma_px]",
 };
 // Column positions in SPEC.
 const FRAME: usize = 0;

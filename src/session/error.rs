@@ -72,9 +72,9 @@ impl std::error::Error for InputError {}
 /// What is wrong, and what was expected instead.
 #[derive(Debug, thiserror::Error)]
 pub enum Problem {
-    #[error("cannot read the file ({0})")]
+    #[error("cannot read the file: {0}")]
     Read(io::Error),
-    #[error("cannot find {what} \"{}\" ({error})", path.display())]
+    #[error("cannot find {what} \"{}\": {error}", path.display())]
     MissingFile {
         what: &'static str,
         path: PathBuf,

@@ -8,7 +8,7 @@ use std::fmt;
 use std::marker::PhantomData;
 use std::path::Path;
 
-use serde::de::{self, value::MapAccessDeserializer, Deserializer, MapAccess, Visitor};
+use serde::de::{self, value::MapAccessDeserializer, Deserializer, MapAccess, SeqAccess, Visitor};
 use serde::Deserialize;
 
 use super::error::{InputError, Problem};
@@ -47,6 +47,43 @@ impl<'de, T: Deserialize<'de>> Visitor<'de> for EntryVisitor<T> {
 
     fn visit_map<A: MapAccess<'de>>(self, map: A) -> Result<Entry<T>, A::Error> {
         T::deserialize(MapAccessDeserializer::new(map)).map(Entry::Inline)
+    }
+}
+
+/// Three numbers written `[x, y, z]`, with a message that says so when they are not.
+#[derive(Debug, Clone, Copy)]
+struct Xyz([f64; 3]);
+
+impl<'de> Deserialize<'de> for Xyz {
+    fn deserialize<D: Deserializer<'de>>(deserializer: D) -> Result<Self, D::Error> {
+        deserializer.deserialize_any(XyzVisitor)
+    }
+}
+
+struct XyzVisitor;
+
+impl<'de> Visitor<'de> for XyzVisitor {
+    type Value = Xyz;
+
+    fn expecting(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str("three numbers [x, y, z]")
+    }
+
+    fn visit_seq<A: SeqAccess<'de>>(self, mut seq: A) -> Result<Xyz, A::Error> {
+        let mut xyz = [0.0; 3];
+        for (i, slot) in xyz.iter_mut().enumerate() {
+            *slot = seq
+                .next_element()?
+                .ok_or_else(|| de::Error::invalid_length(i, &self))?;
+        }
+        let mut extra = 0;
+        while seq.next_element::<de::IgnoredAny>()?.is_some() {
+            extra += 1;
+        }
+        if extra > 0 {
+            return Err(de::Error::invalid_length(3 + extra, &self));
+        }
+        Ok(Xyz(xyz))
     }
 }
 
@@ -144,7 +181,7 @@ pub struct ModelDoc {
 #[serde(deny_unknown_fields)]
 struct PointDoc {
     id: Spanned<String>,
-    xyz: Spanned<[f64; 3]>,
+    xyz: Spanned<Xyz>,
 }
 
 impl ModelDoc {
@@ -158,7 +195,7 @@ impl ModelDoc {
                 .iter()
                 .map(|p| ModelPointFile {
                     id: p.id.value.clone(),
-                    xyz: p.xyz.value,
+                    xyz: p.xyz.value.0,
                 })
                 .collect(),
         };
@@ -188,7 +225,7 @@ impl ModelDoc {
 #[derive(Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct MountDoc {
-    position_m: Spanned<[f64; 3]>,
+    position_m: Spanned<Xyz>,
     yaw_deg: Spanned<f64>,
     pitch_deg: Spanned<f64>,
     roll_deg: Spanned<f64>,
@@ -209,7 +246,7 @@ impl MountDoc {
                 Err(error_at(path, at, problem))
             }
         };
-        for value in self.position_m.value {
+        for value in self.position_m.value.0 {
             finite("position_m", value, &self.position_m.referenced)?;
         }
         finite("yaw_deg", self.yaw_deg.value, &self.yaw_deg.referenced)?;
@@ -220,7 +257,7 @@ impl MountDoc {
         )?;
         finite("roll_deg", self.roll_deg.value, &self.roll_deg.referenced)?;
         let file = MountFile {
-            position_m: self.position_m.value,
+            position_m: self.position_m.value.0,
             yaw_deg: self.yaw_deg.value,
             pitch_deg: self.pitch_deg.value,
             roll_deg: self.roll_deg.value,
