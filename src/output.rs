@@ -86,3 +86,56 @@ impl Drop for StagedOutputs {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn names(dir: &Path) -> Vec<String> {
+        let mut names: Vec<_> = fs::read_dir(dir)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().into_string().unwrap())
+            .collect();
+        names.sort();
+        names
+    }
+
+    #[test]
+    fn files_appear_only_on_commit() {
+        let root = tempfile::tempdir().unwrap();
+        let dir = root.path().join("a/b");
+        let mut outputs = StagedOutputs::create(&dir).unwrap();
+        outputs.add("one.txt", |w| w.write_all(b"1")).unwrap();
+        outputs.add("two.txt", |w| w.write_all(b"2")).unwrap();
+        assert!(names(&dir).iter().all(|n| n.ends_with(".part")));
+        outputs.commit().unwrap();
+        assert_eq!(names(&dir), ["one.txt", "two.txt"]);
+        assert_eq!(fs::read_to_string(dir.join("two.txt")).unwrap(), "2");
+    }
+
+    #[test]
+    fn a_failure_leaves_nothing() {
+        let root = tempfile::tempdir().unwrap();
+        let dir = root.path().join("out");
+        let mut outputs = StagedOutputs::create(&dir).unwrap();
+        outputs.add("one.txt", |w| w.write_all(b"1")).unwrap();
+        let failed = outputs.add("two.txt", |_| Err(io::Error::other("renderer failed")));
+        let e = failed.unwrap_err();
+        assert!(e.to_string().contains("two.txt"), "{e}");
+        drop(outputs);
+        assert!(
+            !dir.exists(),
+            "the folder this run created is removed again"
+        );
+    }
+
+    #[test]
+    fn an_existing_folder_is_kept() {
+        let root = tempfile::tempdir().unwrap();
+        fs::write(root.path().join("old.txt"), "x").unwrap();
+        let mut outputs = StagedOutputs::create(root.path()).unwrap();
+        outputs.add("new.txt", |w| w.write_all(b"1")).unwrap();
+        drop(outputs);
+        assert_eq!(names(root.path()), ["old.txt"]);
+    }
+}

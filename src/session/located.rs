@@ -310,6 +310,52 @@ mod tests {
     }
 
     #[test]
+    fn written_files_read_back() {
+        use crate::camera::Distortion;
+        use crate::geometry::YawPitchRoll;
+        use crate::model::ModelPoint;
+        use nalgebra::Vector3;
+        let path = Path::new("written.yaml");
+        let fisheye = Distortion::KannalaBrandt {
+            k1: 0.012,
+            k2: -0.004,
+            k3: 0.0007,
+            k4: -1e-4,
+        };
+        let cameras = [
+            Camera::new(1280, 1024, 410.5, 411.25, 639.5, 511.5, 0.3, fisheye, 0.8).unwrap(),
+            Camera::ideal(640, 480, 520.0, 319.5, 239.5),
+        ];
+        for camera in cameras {
+            let text = yaml::to_string(&CameraFile::from_camera(&camera)).unwrap();
+            let doc: CameraDoc = yaml::from_str(&text, path).unwrap();
+            assert_eq!(doc.into_camera(path).unwrap(), camera, "{text}");
+        }
+        let points = (0..5)
+            .map(|i| ModelPoint {
+                id: format!("p{i}"),
+                xyz_m: Vector3::new(0.1 * f64::from(i), -1.5, 1e-3),
+            })
+            .collect();
+        let model = KeypointModel::new(points, "p3").unwrap();
+        let text = yaml::to_string(&ModelFile::from_model(&model)).unwrap();
+        let doc: ModelDoc = yaml::from_str(&text, path).unwrap();
+        assert_eq!(doc.into_model(path).unwrap(), model, "{text}");
+        let mount = Mount {
+            position_m: Vector3::new(2.1, 0.45, -0.55),
+            attitude: YawPitchRoll::new(0.25, -0.5, 1.0),
+        };
+        let text = yaml::to_string(&MountFile::from_mount(&mount)).unwrap();
+        let doc: MountDoc = yaml::from_str(&text, path).unwrap();
+        let read = doc.into_mount(path).unwrap();
+        // Degrees in the file, radians in the type: equal to rounding.
+        assert_eq!(read.position_m, mount.position_m);
+        let [a, b] = [read.attitude, mount.attitude];
+        let close = |x: f64, y: f64| (x - y).abs() < 1e-15;
+        assert!(close(a.yaw, b.yaw) && close(a.pitch, b.pitch) && close(a.roll, b.roll));
+    }
+
+    #[test]
     fn non_finite_mount_angle_is_refused() {
         let text = "position_m: [1, 0, 0]\nyaw_deg: 0\npitch_deg: .nan\nroll_deg: 0\n";
         let doc: MountDoc = yaml::from_str(text, Path::new("mount.yaml")).unwrap();
