@@ -1,2 +1,4 @@
 //! One file per job; each returns a serialisable outcome and never prints.
+
+pub mod audit;
 pub mod camera;

@@ -1,44 +1,17 @@
-//! Session inputs: the YAML manifest and the files it names (camera, keypoint models, nominal
-//! mount, detections CSV streamed frame by frame, truth CSV, policy), parsed and validated.
+//! The serde "file" structs of the camera, keypoint model and mount formats (docs/formats.md).
 //!
-//! The serde "file" structs mirror the documented formats exactly (unknown keys are errors); each
-//! converts into the validated domain type of `camera`, `model` or `geometry`.
+//! They mirror the documented formats exactly (unknown keys are errors); each converts into the
+//! validated domain type of `camera`, `model` or `geometry`, and back for writers such as the
+//! simulator. Reading goes through `session::located`, which adds line numbers to the checks.
 
 use nalgebra::Vector3;
 use serde::{Deserialize, Serialize};
 
-use crate::camera::{Camera, CameraError, Distortion, PixelPoint};
+use crate::camera::{Camera, CameraError, Distortion};
 use crate::geometry::{Mount, YawPitchRoll};
 use crate::model::{KeypointModel, ModelError, ModelPoint};
 
-/// Which rigid object a keypoint belongs to.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
-#[serde(rename_all = "snake_case")]
-pub enum ObjectKind {
-    Probe,
-    Drogue,
-}
-
-/// One detected keypoint, already matched to its model point.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Observation {
-    /// Index of the point in its keypoint model.
-    pub point: usize,
-    pub px: PixelPoint,
-    /// One-sigma detection noise (px): the CSV's `sigma_px`, else the camera's `pixel_sigma`.
-    pub sigma_px: f64,
-}
-
-/// All keypoints of one frame, grouped by object.
-#[derive(Debug, Clone, PartialEq, Default)]
-pub struct FrameDetections {
-    pub frame: u64,
-    pub time_s: f64,
-    pub probe: Vec<Observation>,
-    pub drogue: Vec<Observation>,
-}
-
-/// The `camera` file (DESIGN section 3).
+/// The `camera` file.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct CameraFile {
@@ -76,7 +49,7 @@ pub struct DistortionFile {
     pub k4: Option<f64>,
 }
 
-fn default_pixel_sigma() -> f64 {
+pub(super) fn default_pixel_sigma() -> f64 {
     1.0
 }
 

@@ -1,0 +1,130 @@
+//! The command line: clap structs that mirror what the user typed, their conversion into the
+//! library's validated options, and the glue that runs a job, renders its outcome, writes output
+//! files and picks the exit code (0 gate pass, 1 gate fail, 2 bad input or usage).
+
+use std::io::{self, Write};
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use clap::{Args, Parser, Subcommand};
+use mountdrift::commands::audit::{self, AuditError, AuditOptions, AuditOutcome};
+use mountdrift::session::{InputError, Policy};
+
+use crate::output::{OutputError, StagedOutputs};
+
+/// Audits the camera-to-probe mount of a vision-based probe-and-drogue system: did the mount
+/// move during a session, when, by how much, and what error would a fixed-offset pipeline have
+/// made.
+#[derive(Debug, Parser)]
+#[command(name = "mountdrift", version)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Audit one session (a YAML manifest naming camera, models, mount and detections).
+    Audit(AuditArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct AuditArgs {
+    /// The session manifest (YAML).
+    pub session: PathBuf,
+    /// Write the report files into this folder (created if needed).
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// Gate tolerances (YAML); missing keys take their defaults.
+    #[arg(long, value_name = "FILE")]
+    pub policy: Option<PathBuf>,
+    /// Print the report as JSON on standard output instead of the summary.
+    #[arg(long)]
+    pub json: bool,
+}
+
+impl TryFrom<&AuditArgs> for AuditOptions {
+    type Error = InputError;
+
+    fn try_from(args: &AuditArgs) -> Result<Self, InputError> {
+        let policy = match &args.policy {
+            Some(path) => Policy::load(path)?,
+            None => Policy::default(),
+        };
+        Ok(AuditOptions {
+            session: args.session.clone(),
+            policy,
+        })
+    }
+}
+
+/// Anything that stops a command; each is printed once and exits with code 2.
+#[derive(Debug, thiserror::Error)]
+pub enum CliError {
+    #[error(transparent)]
+    Input(#[from] InputError),
+    #[error(transparent)]
+    Audit(#[from] AuditError),
+    #[error(transparent)]
+    Output(#[from] OutputError),
+    #[error("cannot write to standard output: {0}")]
+    Stdout(io::Error),
+}
+
+/// Runs the command the user asked for.
+pub fn run(cli: Cli) -> Result<ExitCode, CliError> {
+    match cli.command {
+        Command::Audit(args) => run_audit(&args),
+    }
+}
+
+fn run_audit(args: &AuditArgs) -> Result<ExitCode, CliError> {
+    let options = AuditOptions::try_from(args)?;
+    let outcome = audit::run(&options)?;
+    if let Some(dir) = &args.out {
+        let mut outputs = StagedOutputs::create(dir)?;
+        outputs.add("report.json", |w| write_json(w, &outcome))?;
+        outputs.commit()?;
+    }
+    let mut stdout = io::stdout().lock();
+    let printed = if args.json {
+        write_json(&mut stdout, &outcome)
+    } else {
+        write_summary(&mut stdout, &outcome)
+    };
+    match printed {
+        // A closed pipe (`| head`) is the reader's choice, not a failure.
+        Err(e) if e.kind() != io::ErrorKind::BrokenPipe => Err(CliError::Stdout(e)),
+        _ => Ok(ExitCode::SUCCESS),
+    }
+}
+
+fn write_json(w: &mut dyn Write, outcome: &AuditOutcome) -> io::Result<()> {
+    serde_json::to_writer_pretty(&mut *w, outcome)?;
+    writeln!(w)
+}
+
+fn write_summary(w: &mut dyn Write, outcome: &AuditOutcome) -> io::Result<()> {
+    let f = &outcome.frames;
+    writeln!(w, "session {}", outcome.session)?;
+    writeln!(
+        w,
+        "  {} frames ({} to {}, {:.3} s to {:.3} s): probe seen in {}, drogue in {}",
+        f.total,
+        f.first_frame,
+        f.last_frame,
+        f.first_time_s,
+        f.last_time_s,
+        f.with_probe,
+        f.with_drogue
+    )?;
+    if let Some(rows) = outcome.truth_rows {
+        writeln!(w, "  truth: {rows} rows")?;
+    }
+    let mount = if outcome.nominal_mount {
+        "given"
+    } else {
+        "not given (drift within the session only)"
+    };
+    writeln!(w, "  nominal mount: {mount}")
+}

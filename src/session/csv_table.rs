@@ -1,0 +1,267 @@
+//! Shared streaming CSV machinery for the detections and truth files: where the text comes from
+//! (a file or text written inline in the manifest), the header check (exactly the documented
+//! column names, in any order), row-by-row reading into one reused record, and field parsing with
+//! errors that name the file, the line and the column.
+//!
+//! Nothing here holds more than one row: a file of any size streams.
+
+use std::fs::File;
+use std::io::{self, BufReader, Cursor, Read};
+use std::path::{Path, PathBuf};
+
+use csv::{ByteRecord, ReaderBuilder, Trim};
+
+use super::error::{Column, InputError, Problem};
+
+/// Where a CSV's text comes from.
+#[derive(Debug, Clone, PartialEq)]
+pub enum CsvSource {
+    /// A CSV file.
+    File(PathBuf),
+    /// CSV text written inside another file (the manifest): `path` names that file and
+    /// `first_line` is the line of the CSV's header in it, so errors point into the manifest.
+    Inline {
+        path: PathBuf,
+        first_line: u64,
+        text: String,
+    },
+}
+
+impl CsvSource {
+    /// The file named in error messages.
+    pub fn path(&self) -> &Path {
+        match self {
+            CsvSource::File(path) | CsvSource::Inline { path, .. } => path,
+        }
+    }
+
+    /// The text as a reader, and the number of lines that precede it in its file.
+    fn open(&self) -> Result<(Box<dyn Read>, u64), InputError> {
+        match self {
+            CsvSource::File(path) => {
+                let file =
+                    File::open(path).map_err(|e| InputError::in_file(path, Problem::Read(e)))?;
+                Ok((Box::new(BufReader::new(file)), 0))
+            }
+            CsvSource::Inline {
+                text, first_line, ..
+            } => Ok((
+                Box::new(Cursor::new(text.clone().into_bytes())),
+                first_line.saturating_sub(1),
+            )),
+        }
+    }
+}
+
+/// The columns a table must and may have.
+pub(super) struct TableSpec {
+    pub required: &'static [&'static str],
+    pub optional: &'static [&'static str],
+    /// The header as shown in messages.
+    pub header: &'static str,
+}
+
+/// A CSV being read row by row. Columns are addressed by their position in the spec
+/// (required ones first, then optional ones).
+pub(super) struct CsvTable {
+    reader: csv::Reader<Box<dyn Read>>,
+    path: PathBuf,
+    line_offset: u64,
+    names: Vec<&'static str>,
+    /// For each spec column, its index in the file's records (`None`: optional and absent).
+    index: Vec<Option<usize>>,
+    record: ByteRecord,
+    /// Line of the header in the file.
+    header_line: u64,
+    /// Data rows read so far.
+    rows: u64,
+}
+
+const UTF8_BOM: &[u8] = b"\xEF\xBB\xBF";
+
+impl CsvTable {
+    /// Opens a source and checks its header against the spec.
+    pub fn open(source: &CsvSource, spec: &TableSpec) -> Result<Self, InputError> {
+        let (input, line_offset) = source.open()?;
+        Self::from_reader(input, source.path(), line_offset, spec)
+    }
+
+    /// Reads the header from any reader; `line_offset` lines precede the text in `path`.
+    pub fn from_reader(
+        input: Box<dyn Read>,
+        path: &Path,
+        line_offset: u64,
+        spec: &TableSpec,
+    ) -> Result<Self, InputError> {
+        let reader = ReaderBuilder::new()
+            .has_headers(false)
+            .flexible(true)
+            .trim(Trim::All)
+            .from_reader(input);
+        let names: Vec<_> = spec.required.iter().chain(spec.optional).copied().collect();
+        let mut table = Self {
+            reader,
+            path: path.to_path_buf(),
+            line_offset,
+            index: vec![None; names.len()],
+            names,
+            record: ByteRecord::new(),
+            header_line: line_offset + 1,
+            rows: 0,
+        };
+        if !table.read_record()? {
+            let problem = Problem::EmptyFile {
+                header: spec.header,
+            };
+            return Err(InputError::at(path, line_offset + 1, None, problem));
+        }
+        table.header_line = table.line();
+        table.map_header(spec)?;
+        Ok(table)
+    }
+
+    fn map_header(&mut self, spec: &TableSpec) -> Result<(), InputError> {
+        for (position, raw) in self.record.iter().enumerate() {
+            let raw = raw.strip_prefix(UTF8_BOM).unwrap_or(raw).trim_ascii();
+            let name = String::from_utf8_lossy(raw);
+            let Some(k) = self.names.iter().position(|n| *n == name) else {
+                let found = name.into_owned();
+                let problem = Problem::UnknownColumn {
+                    found,
+                    header: spec.header,
+                };
+                return Err(self.error(None, problem));
+            };
+            if self.index[k].is_some() {
+                return Err(self.error(None, Problem::DuplicateColumn(name.into_owned())));
+            }
+            self.index[k] = Some(position);
+        }
+        let missing = spec
+            .required
+            .iter()
+            .zip(&self.index)
+            .find(|(_, i)| i.is_none());
+        if let Some((missing, _)) = missing {
+            let problem = Problem::MissingColumn {
+                missing,
+                header: spec.header,
+            };
+            return Err(self.error(None, problem));
+        }
+        Ok(())
+    }
+
+    fn read_record(&mut self) -> Result<bool, InputError> {
+        self.reader
+            .read_byte_record(&mut self.record)
+            .map_err(|e| self.csv_error(e))
+    }
+
+    /// Reads the next data row; `false` at the end of the text. A table without any data row is
+    /// an error: every input table must say something.
+    pub fn next_row(&mut self) -> Result<bool, InputError> {
+        if !self.read_record()? {
+            if self.rows == 0 {
+                let after_header = self.header_line + 1;
+                return Err(InputError::at(
+                    &self.path,
+                    after_header,
+                    None,
+                    Problem::NoRows,
+                ));
+            }
+            return Ok(false);
+        }
+        self.rows += 1;
+        let width = self.index.iter().flatten().count();
+        if self.record.len() != width {
+            let problem = Problem::FieldCount {
+                expected: width,
+                found: self.record.len(),
+            };
+            return Err(self.error(None, problem));
+        }
+        Ok(true)
+    }
+
+    /// The 1-based line of the current row in its file.
+    pub fn line(&self) -> u64 {
+        let in_text = self.record.position().map_or(1, |p| p.line());
+        self.line_offset + in_text
+    }
+
+    pub fn path(&self) -> &Path {
+        &self.path
+    }
+
+    /// The raw bytes of a column in the current row (`None`: optional column absent).
+    pub fn raw(&self, column: usize) -> Option<&[u8]> {
+        self.index[column].and_then(|i| self.record.get(i))
+    }
+
+    /// The text of a column in the current row (the column must exist).
+    pub fn text(&self, column: usize) -> Result<&str, InputError> {
+        let raw = self.raw(column).unwrap_or_default();
+        std::str::from_utf8(raw).map_err(|_| {
+            let found = String::from_utf8_lossy(raw).into_owned();
+            self.error(Some(column), Problem::expected("UTF-8 text", found))
+        })
+    }
+
+    /// A finite number.
+    pub fn finite(&self, column: usize) -> Result<f64, InputError> {
+        let text = self.text(column)?;
+        match text.parse::<f64>() {
+            Ok(value) if value.is_finite() => Ok(value),
+            _ => Err(self.error(Some(column), Problem::expected("a finite number", text))),
+        }
+    }
+
+    /// A non-negative whole number (frame numbers).
+    pub fn count(&self, column: usize) -> Result<u64, InputError> {
+        let text = self.text(column)?;
+        text.parse::<u64>().map_err(|_| {
+            let expected = "a whole number of 0 or more";
+            self.error(Some(column), Problem::expected(expected, text))
+        })
+    }
+
+    /// An error at the current row, in the given column if any.
+    pub fn error(&self, column: Option<usize>, problem: Problem) -> InputError {
+        let column = column.map(|c| Column::Named(self.names[c].to_string()));
+        InputError::at(&self.path, self.line(), column, problem)
+    }
+
+    fn csv_error(&self, e: csv::Error) -> InputError {
+        let line = e
+            .position()
+            .map_or(self.line(), |p| p.line() + self.line_offset);
+        let message = e.to_string();
+        let problem = match e.into_kind() {
+            csv::ErrorKind::Io(io) => Problem::Read(io),
+            _ => Problem::Read(io::Error::new(io::ErrorKind::InvalidData, message)),
+        };
+        InputError::at(&self.path, line, None, problem)
+    }
+}
+
+/// Why a CSV could not be written.
+#[derive(Debug, thiserror::Error)]
+pub enum CsvWriteError {
+    #[error("cannot write CSV: {0}")]
+    Csv(#[from] csv::Error),
+    #[error("keypoint index {index} is not a point of the {object} model")]
+    UnknownPoint { object: &'static str, index: usize },
+    #[error("{column} must be a finite number to be written (got {value})")]
+    NonFinite { column: &'static str, value: f64 },
+}
+
+/// A number as CSV text: the shortest decimal that reads back to the same `f64`.
+pub(super) fn number(column: &'static str, value: f64) -> Result<String, CsvWriteError> {
+    if value.is_finite() {
+        Ok(value.to_string())
+    } else {
+        Err(CsvWriteError::NonFinite { column, value })
+    }
+}
