@@ -7,7 +7,7 @@ use std::path::PathBuf;
 use std::process::ExitCode;
 
 use clap::{Args, Parser, Subcommand};
-use mountdrift::commands::audit::{self, AuditError, AuditOptions, AuditOutcome};
+use mountdrift::commands::audit::{self, AuditError, AuditOptions, ReadSummary as AuditOutcome};
 use mountdrift::session::{InputError, Policy};
 
 use crate::output::{OutputError, StagedOutputs};

@@ -9,6 +9,9 @@ use serde::Serialize;
 
 use crate::session::{DetectionReader, InputError, Policy, Session, TruthReader};
 
+mod outcome;
+pub use outcome::*;
+
 /// Validated options of an audit.
 #[derive(Debug, Clone, PartialEq)]
 pub struct AuditOptions {
@@ -27,7 +30,7 @@ pub enum AuditError {
 
 /// What an audit found.
 #[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct AuditOutcome {
+pub struct ReadSummary {
     /// The manifest, as given.
     pub session: String,
     pub nominal_mount: bool,
@@ -54,11 +57,11 @@ pub struct FrameSummary {
 }
 
 /// Runs the audit.
-pub fn run(options: &AuditOptions) -> Result<AuditOutcome, AuditError> {
+pub fn run(options: &AuditOptions) -> Result<ReadSummary, AuditError> {
     let session = Session::load(&options.session)?;
     let frames = summarise_frames(session.detections()?)?;
     let truth_rows = session.truth()?.map(count_truth).transpose()?;
-    Ok(AuditOutcome {
+    Ok(ReadSummary {
         session: options.session.display().to_string(),
         nominal_mount: session.mount.is_some(),
         frames,
