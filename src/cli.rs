@@ -10,7 +10,9 @@ use clap::{Args, Parser, Subcommand};
 use mountdrift::commands::audit::{self, AuditError, AuditOptions, ReadSummary as AuditOutcome};
 use mountdrift::session::{InputError, Policy};
 
-use crate::output::{OutputError, StagedOutputs};
+use mountdrift::commands::camera::{self, FromExifError, FromExifOptions};
+
+use crate::output::{self, OutputError, StagedOutputs};
 
 /// Audits the camera-to-probe mount of a vision-based probe-and-drogue system: did the mount
 /// move during a session, when, by how much, and what error would a fixed-offset pipeline have
@@ -26,6 +28,27 @@ pub struct Cli {
 pub enum Command {
     /// Audit one session (a YAML manifest naming camera, models, mount and detections).
     Audit(AuditArgs),
+    /// Camera intrinsics helpers.
+    #[command(subcommand)]
+    Camera(CameraCommand),
+}
+
+#[derive(Debug, Subcommand)]
+pub enum CameraCommand {
+    /// Approximate pinhole intrinsics from an image's EXIF focal-length tags.
+    FromExif(FromExifArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct FromExifArgs {
+    /// A JPEG, PNG or TIFF image straight from the camera.
+    pub image: PathBuf,
+    /// Write the camera file (YAML) here instead of printing it.
+    #[arg(long, value_name = "CAMERA.yaml")]
+    pub out: Option<PathBuf>,
+    /// Print how the intrinsics were derived as JSON instead.
+    #[arg(long)]
+    pub json: bool,
 }
 
 #[derive(Debug, Args)]
@@ -67,6 +90,10 @@ pub enum CliError {
     Audit(#[from] AuditError),
     #[error(transparent)]
     Output(#[from] OutputError),
+    #[error(transparent)]
+    FromExif(#[from] FromExifError),
+    #[error("cannot render the output: {0}")]
+    Render(String),
     #[error("cannot write to standard output: {0}")]
     Stdout(io::Error),
 }
@@ -75,6 +102,44 @@ pub enum CliError {
 pub fn run(cli: Cli) -> Result<ExitCode, CliError> {
     match cli.command {
         Command::Audit(args) => run_audit(&args),
+        Command::Camera(CameraCommand::FromExif(args)) => run_from_exif(&args),
+    }
+}
+
+fn run_from_exif(args: &FromExifArgs) -> Result<ExitCode, CliError> {
+    let options = FromExifOptions {
+        image: args.image.clone(),
+    };
+    let outcome = camera::from_exif(&options)?;
+    let yaml = camera::render_camera_yaml(&outcome).map_err(|e| CliError::Render(e.to_string()))?;
+    if let Some(path) = &args.out {
+        output::write_file_atomically(path, |w| w.write_all(yaml.as_bytes()))?;
+    }
+    let mut stdout = io::stdout().lock();
+    let printed = if args.json {
+        serde_json::to_writer_pretty(&mut stdout, &outcome)
+            .map_err(io::Error::from)
+            .and_then(|()| writeln!(stdout))
+    } else if args.out.is_some() {
+        writeln!(
+            stdout,
+            "wrote {}",
+            args.out
+                .as_ref()
+                .map(|p| p.display().to_string())
+                .unwrap_or_default()
+        )
+    } else {
+        stdout.write_all(yaml.as_bytes())
+    };
+    finish_stdout(printed)
+}
+
+/// A closed pipe (`| head`) is the reader's choice, not a failure.
+fn finish_stdout(printed: io::Result<()>) -> Result<ExitCode, CliError> {
+    match printed {
+        Err(e) if e.kind() != io::ErrorKind::BrokenPipe => Err(CliError::Stdout(e)),
+        _ => Ok(ExitCode::SUCCESS),
     }
 }
 
@@ -92,11 +157,7 @@ fn run_audit(args: &AuditArgs) -> Result<ExitCode, CliError> {
     } else {
         write_summary(&mut stdout, &outcome)
     };
-    match printed {
-        // A closed pipe (`| head`) is the reader's choice, not a failure.
-        Err(e) if e.kind() != io::ErrorKind::BrokenPipe => Err(CliError::Stdout(e)),
-        _ => Ok(ExitCode::SUCCESS),
-    }
+    finish_stdout(printed)
 }
 
 fn write_json(w: &mut dyn Write, outcome: &AuditOutcome) -> io::Result<()> {

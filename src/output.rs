@@ -77,6 +77,32 @@ impl StagedOutputs {
     }
 }
 
+/// Writes one file all or nothing: a temporary file beside it, renamed into place when full.
+pub fn write_file_atomically(
+    path: &Path,
+    render: impl FnOnce(&mut dyn Write) -> io::Result<()>,
+) -> Result<(), OutputError> {
+    let failed = |error| OutputError {
+        path: path.to_path_buf(),
+        error,
+    };
+    let dir = match path.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+        _ => PathBuf::from("."),
+    };
+    let mut temp = tempfile::Builder::new()
+        .prefix(".mountdrift-")
+        .suffix(".part")
+        .tempfile_in(&dir)
+        .map_err(failed)?;
+    let mut writer = BufWriter::new(temp.as_file_mut());
+    render(&mut writer).map_err(failed)?;
+    writer.flush().map_err(failed)?;
+    drop(writer);
+    temp.persist(path).map_err(|e| failed(e.error))?;
+    Ok(())
+}
+
 impl Drop for StagedOutputs {
     fn drop(&mut self) {
         // Delete the temporary files first, then the folder if this run made it and it is empty.
