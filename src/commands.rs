@@ -1,1 +1,2 @@
 //! One file per job; each returns a serialisable outcome and never prints.
+pub mod simulate;
