@@ -559,3 +559,30 @@ const NOISE_STATS_BLOCK: &str = "noise:
   dropout_probability: 0.1
   frame_missing_probability: 0.05
 mount_events:";
+
+#[test]
+fn documented_example_scenario_runs() {
+    // Source: the complete example in docs/scenarios.md, which must stay a valid scenario.
+    let doc =
+        std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("docs/scenarios.md"))
+            .unwrap();
+    let start = doc.find("```yaml\n").expect("example block") + "```yaml\n".len();
+    let end = start + doc[start..].find("```").unwrap();
+    let example = scenario(&doc[start..end]);
+    let sim = Simulation::new(&example).unwrap();
+    assert_eq!(sim.frame_count(), 7200);
+    assert_eq!(sim.mount_event_count(), 2);
+    let error = MountDeviation::between(sim.true_initial_mount(), sim.nominal_mount());
+    assert_relative_eq!(
+        error.to_report_vector(),
+        nalgebra::Vector6::new(1.0, 0.0, -1.5, 0.1, 0.0, 0.0),
+        epsilon = 1e-9
+    );
+    let (mut frames, mut good) = (0, 0);
+    for frame in sim.frames() {
+        frames += 1;
+        good +=
+            usize::from(frame.detections.probe.len() >= 6 && frame.detections.drogue.len() >= 6);
+    }
+    assert!(good as f64 >= 0.9 * frames as f64, "{good} of {frames}");
+}

@@ -40,8 +40,9 @@ impl Imager {
         if p_c.z <= tol::MIN_DEPTH_M {
             return None;
         }
-        let radius = p_c.x.hypot(p_c.y) / p_c.z;
-        if radius >= self.max_radius {
+        // radius = sqrt(x² + y²) / z, compared squared to spare a square root per keypoint.
+        let limit = self.max_radius * p_c.z;
+        if p_c.x * p_c.x + p_c.y * p_c.y >= limit * limit {
             return None;
         }
         self.camera.project(p_c)

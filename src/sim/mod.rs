@@ -7,6 +7,7 @@
 //! same seed gives the same session. [`writer`] streams a session to disk in the formats of
 //! DESIGN section 3. This module never prints and never reads the clock.
 
+pub mod csvfmt;
 pub mod imaging;
 pub mod motion;
 pub mod noise;

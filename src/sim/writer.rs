@@ -3,8 +3,8 @@
 //! stays bounded however long the session). Every file is written under a temporary name and
 //! renamed only when all of them are complete, so a failure leaves nothing half-written.
 //!
-//! Number formats are fixed, so the same scenario and seed give the same bytes: pixels `{:.4}`,
-//! times `{:.6}` s, truth positions `{:.6}` m and angles `{:.6}` deg. The optional `poses.csv`
+//! Number formats are fixed, so the same scenario and seed give the same bytes: pixels with 4
+//! decimals, times with 6 (s), truth positions with 6 (m) and angles with 6 (deg). The optional `poses.csv`
 //! (true `T_CB` and `T_CD` as rotation vectors and translations) uses the shortest decimal that
 //! reads back to the same double, so a reference projection can start from exact poses.
 
@@ -18,6 +18,7 @@ use tempfile::NamedTempFile;
 use crate::model::KeypointModel;
 use crate::session::{CameraFile, FrameDetections, ModelFile, MountFile, Observation};
 
+use super::csvfmt::RowBuf;
 use super::{Scenario, SimError, Simulation, TruthFrame};
 
 pub const SESSION_FILE: &str = "session.yaml";
@@ -242,10 +243,11 @@ impl<W: Write> CsvSinks<W> {
             frames_total: sim.frame_count(),
             ..SessionCounts::default()
         };
+        let mut row = RowBuf::default();
         for frame in sim.frames() {
             let d = &frame.detections;
-            write_detections(&mut self.detections, d, sim.probe(), sim.drogue())?;
-            write_truth_row(&mut self.truth, &frame.truth)?;
+            write_detections(&mut self.detections, d, sim.probe(), sim.drogue(), &mut row)?;
+            write_truth_row(&mut self.truth, &frame.truth, &mut row)?;
             if let Some(p) = &mut self.poses {
                 write_pose_row(p, &frame.truth)?;
             }
@@ -274,41 +276,42 @@ pub fn write_detections(
     d: &FrameDetections,
     probe: &KeypointModel,
     drogue: &KeypointModel,
+    row: &mut RowBuf,
 ) -> std::io::Result<()> {
     for (object, model, list) in [("probe", probe, &d.probe), ("drogue", drogue, &d.drogue)] {
         for obs in list.iter() {
-            write_detection_row(w, d.frame, d.time_s, object, model, obs)?;
+            row.clear().uint(d.frame).comma().fixed(d.time_s, 6).comma();
+            row.text(object)
+                .comma()
+                .text(&model.points()[obs.point].id)
+                .comma();
+            row.fixed(obs.px.x, 4).comma().fixed(obs.px.y, 4).comma();
+            row.fixed(obs.sigma_px, 4).newline();
+            w.write_all(row.as_bytes())?;
         }
     }
     Ok(())
 }
 
-fn write_detection_row(
-    w: &mut impl Write,
-    frame: u64,
-    time_s: f64,
-    object: &str,
-    model: &KeypointModel,
-    obs: &Observation,
-) -> std::io::Result<()> {
-    let id = &model.points()[obs.point].id;
-    writeln!(
-        w,
-        "{frame},{time_s:.6},{object},{id},{:.4},{:.4},{:.4}",
-        obs.px.x, obs.px.y, obs.sigma_px
-    )
-}
-
 /// One truth row: the true mount and the true probe-to-drogue vector.
-pub fn write_truth_row(w: &mut impl Write, t: &TruthFrame) -> std::io::Result<()> {
-    let p = &t.mount.position_m;
-    let [yaw, pitch, roll] = t.mount.attitude.to_degrees();
-    let v = &t.vector_m;
-    writeln!(
-        w,
-        "{},{:.6},{:.6},{:.6},{:.6},{yaw:.6},{pitch:.6},{roll:.6},{:.6},{:.6},{:.6}",
-        t.frame, t.time_s, p.x, p.y, p.z, v.x, v.y, v.z
-    )
+pub fn write_truth_row(
+    w: &mut impl Write,
+    t: &TruthFrame,
+    row: &mut RowBuf,
+) -> std::io::Result<()> {
+    row.clear().uint(t.frame).comma().fixed(t.time_s, 6);
+    let angles_deg = t.mount.attitude.to_degrees();
+    let values = t
+        .mount
+        .position_m
+        .iter()
+        .chain(&angles_deg)
+        .chain(t.vector_m.iter());
+    for value in values {
+        row.comma().fixed(*value, 6);
+    }
+    row.newline();
+    w.write_all(row.as_bytes())
 }
 
 /// One pose row: `T_CB` and `T_CD` as rotation vector (rad) and translation (m), exact.
