@@ -54,7 +54,7 @@ impl RowBuf {
     pub fn fixed(&mut self, x: f64, decimals: usize) -> &mut Self {
         let scale = POW10[decimals];
         let scaled = (x.abs() * scale).round();
-        if !(scaled < EXACT_INTEGER_LIMIT) {
+        if !scaled.is_finite() || scaled >= EXACT_INTEGER_LIMIT {
             // Huge or non-finite: rare, so the standard formatter is fine.
             let _ = write!(self.bytes, "{x:.decimals$}");
             return self;
@@ -109,7 +109,7 @@ mod tests {
             0.37,
             12.345_678_9,
             -0.000_12,
-            1234.000_04,
+            1_234.000_04,
             33_333.333_333_333,
             640.123_456,
             -3.999_999_9,

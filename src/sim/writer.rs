@@ -16,7 +16,7 @@ use serde::Serialize;
 use tempfile::NamedTempFile;
 
 use crate::model::KeypointModel;
-use crate::session::{CameraFile, FrameDetections, ModelFile, MountFile, Observation};
+use crate::session::{CameraFile, FrameDetections, ModelFile, MountFile};
 
 use super::csvfmt::RowBuf;
 use super::{Scenario, SimError, Simulation, TruthFrame};
