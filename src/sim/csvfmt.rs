@@ -23,6 +23,20 @@ impl RowBuf {
         self
     }
 
+    /// Keeps the first `len` bytes (a shared row prefix).
+    pub fn truncate(&mut self, len: usize) -> &mut Self {
+        self.bytes.truncate(len);
+        self
+    }
+
+    pub fn len(&self) -> usize {
+        self.bytes.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.bytes.is_empty()
+    }
+
     pub fn text(&mut self, s: &str) -> &mut Self {
         self.bytes.extend_from_slice(s.as_bytes());
         self

@@ -8,10 +8,6 @@ use nalgebra::Vector3;
 use crate::camera::{Camera, Distortion, PixelPoint};
 use crate::tol;
 
-/// Step of the scan for the distortion fold, in normalised radius (pinhole) or in the angle
-/// from the optical axis in radians (fisheye). 1e-4 places the fold within 0.006° or better.
-const FOLD_SCAN_STEP: f64 = 1e-4;
-
 /// Largest normalised radius scanned for a pinhole fold (tan 84°): no keypoint camera for this
 /// job has a wider pinhole field.
 const PINHOLE_SCAN_MAX_RADIUS: f64 = 10.0;
@@ -73,9 +69,9 @@ fn fold_radius(distortion: &Distortion) -> f64 {
 }
 
 fn first_fold(slope: impl Fn(f64) -> f64, max: f64) -> Option<f64> {
-    let steps = (max / FOLD_SCAN_STEP) as usize;
+    let steps = (max / tol::SIM_FOLD_SCAN_STEP) as usize;
     (1..=steps)
-        .map(|i| i as f64 * FOLD_SCAN_STEP)
+        .map(|i| i as f64 * tol::SIM_FOLD_SCAN_STEP)
         .find(|&x| slope(x) <= tol::MIN_RADIAL_SLOPE)
 }
 
@@ -94,7 +90,7 @@ mod tests {
             p2: 0.0,
             k3: 0.0,
         };
-        assert!((fold_radius(&d) - 1.290994).abs() < 2.0 * FOLD_SCAN_STEP);
+        assert!((fold_radius(&d) - 1.290994).abs() < 2.0 * tol::SIM_FOLD_SCAN_STEP);
     }
 
     #[test]

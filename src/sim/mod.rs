@@ -142,32 +142,11 @@ impl Simulation {
     pub fn new(scenario: &Scenario) -> Result<Self, SimError> {
         let origin = scenario_origin(scenario);
         let check = Checker::new(&origin);
-        check.positive(scenario.frame_rate_hz, "frame_rate_hz")?;
-        check.positive(scenario.duration_s, "duration_s")?;
-        let frame_count = scenario.frame_count();
-        check.require(
-            (1..=scenario::MAX_FRAMES).contains(&frame_count),
-            "duration_s",
-            format!(
-                "gives {frame_count} frames; at least 1 and at most {} are allowed",
-                scenario::MAX_FRAMES
-            ),
-        )?;
+        let frame_count = checked_frame_count(scenario, &check)?;
         let camera = load_camera(scenario, &origin)?;
         let probe = load_model(scenario, "probe", &origin)?;
         let drogue = load_model(scenario, "drogue", &origin)?;
-        let true_initial = scenario.mount.inline("mount", &origin)?.to_mount();
-        check.finite3(true_initial.position_m.into(), "mount.position_m")?;
-        let mut phase_rng = noise::stream_rng(scenario.seed, noise::STREAM_VIBRATION);
-        let mut next_phase = || phase_rng.random::<f64>() * std::f64::consts::TAU;
-        let timeline = MountTimeline::new(
-            true_initial,
-            &scenario.mount_events,
-            &mut next_phase,
-            &check,
-        )?;
-        let nominal_mount =
-            motion::nominal_mount(&true_initial, scenario.nominal_error.as_ref(), &check)?;
+        let (timeline, nominal_mount) = mount_story(scenario, &origin, &check)?;
         let path = DroguePath::new(
             &scenario.approach,
             &scenario.drogue_motion,
@@ -329,6 +308,40 @@ impl Simulation {
             })
             .collect()
     }
+}
+
+fn checked_frame_count(scenario: &Scenario, check: &Checker) -> Result<u64, SimError> {
+    check.positive(scenario.frame_rate_hz, "frame_rate_hz")?;
+    check.positive(scenario.duration_s, "duration_s")?;
+    let frame_count = scenario.frame_count();
+    check.require(
+        (1..=scenario::MAX_FRAMES).contains(&frame_count),
+        "duration_s",
+        format!(
+            "gives {frame_count} frames; at least 1 and at most {} are allowed",
+            scenario::MAX_FRAMES
+        ),
+    )?;
+    Ok(frame_count)
+}
+
+/// The true mount over time and the nominal mount written for the pipeline.
+fn mount_story(
+    scenario: &Scenario,
+    origin: &str,
+    check: &Checker,
+) -> Result<(MountTimeline, Mount), SimError> {
+    let file = scenario.mount.inline("mount", origin)?;
+    check.finite3(file.position_m, "mount.position_m")?;
+    let angles = [file.yaw_deg, file.pitch_deg, file.roll_deg];
+    check.finite3(angles, "mount yaw_deg, pitch_deg, roll_deg")?;
+    let true_initial = file.to_mount();
+    let mut phase_rng = noise::stream_rng(scenario.seed, noise::STREAM_VIBRATION);
+    let mut next_phase = || phase_rng.random::<f64>() * std::f64::consts::TAU;
+    let events = &scenario.mount_events;
+    let timeline = MountTimeline::new(true_initial, events, &mut next_phase, check)?;
+    let nominal = motion::nominal_mount(&true_initial, scenario.nominal_error.as_ref(), check)?;
+    Ok((timeline, nominal))
 }
 
 fn scenario_origin(scenario: &Scenario) -> String {

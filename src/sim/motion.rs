@@ -11,16 +11,14 @@ use rand_distr::StandardNormal;
 use rand_pcg::Pcg64Mcg;
 
 use crate::geometry::{Mount, MountDeviation, YawPitchRoll};
+use crate::tol;
 
 use super::scenario::{
     Approach, DeviationSpec, DrogueMotion, MountEvent, Phase, ReceiverMotion, Sinusoid,
+    VibrationEvent,
 };
 use super::validate::Checker;
 use super::SimError;
-
-/// Ranges closer than this count as contact (m); a closing leg ends exactly at its target, so
-/// this only absorbs rounding in hand-written scenario values.
-const CONTACT_RANGE_M: f64 = 1e-9;
 
 /// One leg of the range profile: range moves linearly from `from_m` to `to_m` over
 /// `[start_s, end_s)`; `end_s` is infinite for a final hold.
@@ -91,7 +89,7 @@ fn phase_leg(
     match phase {
         Phase::Station(hold) => {
             check.require(
-                range_m > CONTACT_RANGE_M,
+                range_m > tol::SIM_CONTACT_RANGE_M,
                 field,
                 "station-keeping needs a range above 0 (use contact)",
             )?;
@@ -99,7 +97,7 @@ fn phase_leg(
         }
         Phase::Contact(hold) => {
             check.require(
-                range_m <= CONTACT_RANGE_M,
+                range_m <= tol::SIM_CONTACT_RANGE_M,
                 field,
                 format!("contact needs range 0, but the range here is {range_m} m (close first)"),
             )?;
@@ -431,32 +429,20 @@ fn event_model(
 ) -> Result<EventModel, SimError> {
     match event {
         MountEvent::Step(s) => {
-            check.non_negative(s.at_s, &format!("{field}.step.at_s"))?;
             let f = format!("{field}.step");
-            let names = [format!("{f}.translation_mm"), format!("{f}.rotation_deg")];
-            let deviation = deviation(
-                s.translation_mm,
-                s.rotation_deg,
-                [&names[0], &names[1]],
-                check,
-            )?;
+            check.non_negative(s.at_s, &format!("{f}.at_s"))?;
+            let deviation = named_deviation(s.translation_mm, s.rotation_deg, &f, check)?;
             Ok(EventModel::Step {
                 at_s: s.at_s,
                 deviation,
             })
         }
         MountEvent::Ramp(r) => {
-            check.non_negative(r.from_s, &format!("{field}.ramp.from_s"))?;
-            check.finite(r.to_s, &format!("{field}.ramp.to_s"))?;
-            check.require(r.to_s > r.from_s, field, "a ramp needs to_s after from_s")?;
             let f = format!("{field}.ramp");
-            let names = [format!("{f}.translation_mm"), format!("{f}.rotation_deg")];
-            let deviation = deviation(
-                r.translation_mm,
-                r.rotation_deg,
-                [&names[0], &names[1]],
-                check,
-            )?;
+            check.non_negative(r.from_s, &format!("{f}.from_s"))?;
+            check.finite(r.to_s, &format!("{f}.to_s"))?;
+            check.require(r.to_s > r.from_s, &f, "a ramp needs to_s after from_s")?;
+            let deviation = named_deviation(r.translation_mm, r.rotation_deg, &f, check)?;
             Ok(EventModel::Ramp {
                 from_s: r.from_s,
                 to_s: r.to_s,
@@ -464,29 +450,53 @@ fn event_model(
             })
         }
         MountEvent::Vibration(v) => {
-            let f = format!("{field}.vibration");
-            check.positive(v.frequency_hz, &format!("{f}.frequency_hz"))?;
-            let names = [format!("{f}.amplitude_mm"), format!("{f}.amplitude_deg")];
-            let amplitude = deviation(
-                v.amplitude_mm,
-                v.amplitude_deg,
-                [&names[0], &names[1]],
-                check,
-            )?;
-            let from_s = v.from_s.unwrap_or(0.0);
-            let to_s = v.to_s.unwrap_or(f64::INFINITY);
-            check.non_negative(from_s, &format!("{f}.from_s"))?;
-            check.require(to_s > from_s, &f, "to_s must come after from_s")?;
-            let phase_rad = [(); 6].map(|_| phases());
-            Ok(EventModel::Vibration {
-                amplitude,
-                omega_rad_s: TAU * v.frequency_hz,
-                phase_rad,
-                from_s,
-                to_s,
-            })
+            vibration_model(v, &format!("{field}.vibration"), phases, check)
         }
     }
+}
+
+fn vibration_model(
+    v: &VibrationEvent,
+    field: &str,
+    phases: &mut impl FnMut() -> f64,
+    check: &Checker,
+) -> Result<EventModel, SimError> {
+    check.positive(v.frequency_hz, &format!("{field}.frequency_hz"))?;
+    let names = [
+        format!("{field}.amplitude_mm"),
+        format!("{field}.amplitude_deg"),
+    ];
+    let amplitude = deviation(
+        v.amplitude_mm,
+        v.amplitude_deg,
+        [&names[0], &names[1]],
+        check,
+    )?;
+    let from_s = v.from_s.unwrap_or(0.0);
+    let to_s = v.to_s.unwrap_or(f64::INFINITY);
+    check.non_negative(from_s, &format!("{field}.from_s"))?;
+    check.require(to_s > from_s, field, "to_s must come after from_s")?;
+    Ok(EventModel::Vibration {
+        amplitude,
+        omega_rad_s: TAU * v.frequency_hz,
+        phase_rad: [(); 6].map(|_| phases()),
+        from_s,
+        to_s,
+    })
+}
+
+/// A checked step or ramp deviation under `field` (`translation_mm`, `rotation_deg`).
+fn named_deviation(
+    translation_mm: [f64; 3],
+    rotation_deg: [f64; 3],
+    field: &str,
+    check: &Checker,
+) -> Result<DeviationSpec, SimError> {
+    let names = [
+        format!("{field}.translation_mm"),
+        format!("{field}.rotation_deg"),
+    ];
+    deviation(translation_mm, rotation_deg, [&names[0], &names[1]], check)
 }
 
 /// A checked deviation; `fields` names the translation and rotation entries in errors.

@@ -84,18 +84,7 @@ impl NoiseModel {
         check: &Checker,
     ) -> Result<Self, SimError> {
         check.non_negative(spec.pixel_sigma, "noise.pixel_sigma")?;
-        let (ar_coefficient, ar_sigma_px) = match &spec.correlated {
-            Some(c) => {
-                check.non_negative(c.sigma_px, "noise.correlated.sigma_px")?;
-                check.require(
-                    (0.0..1.0).contains(&c.coefficient),
-                    "noise.correlated.coefficient",
-                    format!("must lie in [0, 1) (got {})", c.coefficient),
-                )?;
-                (c.coefficient, c.sigma_px)
-            }
-            None => (0.0, 0.0),
-        };
+        let (ar_coefficient, ar_sigma_px) = correlated_parts(spec, check)?;
         let (outlier_fraction, outlier_min_px, outlier_max_px) = outlier_parts(spec, check)?;
         check.probability(spec.dropout_probability, "noise.dropout_probability")?;
         check.probability(
@@ -144,6 +133,19 @@ impl NoiseModel {
             .iter()
             .any(|o| o.object == object && o.hidden[index] && t_s >= o.from_s && t_s < o.to_s)
     }
+}
+
+fn correlated_parts(spec: &NoiseSpec, check: &Checker) -> Result<(f64, f64), SimError> {
+    let Some(c) = &spec.correlated else {
+        return Ok((0.0, 0.0));
+    };
+    check.non_negative(c.sigma_px, "noise.correlated.sigma_px")?;
+    check.require(
+        (0.0..1.0).contains(&c.coefficient),
+        "noise.correlated.coefficient",
+        format!("must lie in [0, 1) (got {})", c.coefficient),
+    )?;
+    Ok((c.coefficient, c.sigma_px))
 }
 
 fn outlier_parts(spec: &NoiseSpec, check: &Checker) -> Result<(f64, f64, f64), SimError> {

@@ -197,7 +197,10 @@ impl<'a> Staged<'a> {
         let counts = sinks
             .write_all(sim)
             .and_then(|c| sinks.flush().map(|()| c))
-            .map_err(|source| self.error(DETECTIONS_FILE, source))?;
+            .map_err(|source| SimError::Write {
+                path: self.dir.to_path_buf(),
+                source,
+            })?;
         drop(sinks);
         self.files.push((detections, DETECTIONS_FILE));
         self.files.push((truth, TRUTH_FILE));
@@ -278,10 +281,18 @@ pub fn write_detections(
     drogue: &KeypointModel,
     row: &mut RowBuf,
 ) -> std::io::Result<()> {
+    // Frame number and time are shared by every row of the frame: format them once.
+    let prefix_len = row
+        .clear()
+        .uint(d.frame)
+        .comma()
+        .fixed(d.time_s, 6)
+        .comma()
+        .len();
     for (object, model, list) in [("probe", probe, &d.probe), ("drogue", drogue, &d.drogue)] {
         for obs in list.iter() {
-            row.clear().uint(d.frame).comma().fixed(d.time_s, 6).comma();
-            row.text(object)
+            row.truncate(prefix_len)
+                .text(object)
                 .comma()
                 .text(&model.points()[obs.point].id)
                 .comma();
