@@ -154,7 +154,7 @@ fn creep() -> Scenario {
         )),
         drogue: Source::Inline(drogue_model(0.29, 0.40, 0.08)),
         mount: Source::Inline(mount([1.05, -0.26, -1.02], [-2.0, -3.0, 0.2])),
-        approach: approach(12.0, 40.0, 0.4, 120.0, 0.5),
+        approach: approach(20.0, 40.0, 0.4, 100.0, 0.5),
         drogue_motion: drogue_motion(
             [0.07, 0.2, 0.16],
             6.0,
