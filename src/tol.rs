@@ -57,3 +57,12 @@ pub const QUANTILE_MAX_ITER: usize = 200;
 /// to the stored pixels. A plain resize rounds each side to whole pixels, which stays well below
 /// 1 % for images of 100 px or more.
 pub const EXIF_SCALE_MISMATCH_REL: f64 = 0.01;
+
+/// Simulator: a scenario range at or below this (m) counts as contact. Closing legs end exactly
+/// at their target, so this only absorbs rounding in hand-written scenario values.
+pub const SIM_CONTACT_RANGE_M: f64 = 1e-9;
+
+/// Simulator: step of the scan for the radius where lens distortion folds over, in normalised
+/// radius (pinhole) or radians off axis (fisheye). 1e-4 places the fold within 0.006° or better,
+/// far finer than any keypoint's position matters there.
+pub const SIM_FOLD_SCAN_STEP: f64 = 1e-4;

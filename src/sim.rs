@@ -1,1 +1,0 @@
-//! sim (being written).
