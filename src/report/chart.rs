@@ -31,27 +31,80 @@ pub enum Marker {
 }
 
 impl Marker {
-    /// Path data of this marker centred at (x, y).
-    fn path(self, x: f64, y: f64) -> String {
-        let (cx, cy) = (coord(x), coord(y));
+    /// Where each mark's path starts, relative to its centre, px.
+    fn start_offset(self) -> (f64, f64) {
         match self {
-            Marker::Dot | Marker::Square => format!("M{cx} {cy}h0"),
-            Marker::Triangle => format!("M{cx} {}l3 5.2h-6z", coord(y - 3.4)),
-            Marker::Diamond => format!("M{cx} {}l3.2 3.2l-3.2 3.2l-3.2-3.2z", coord(y - 3.2)),
-            Marker::Cross => format!("M{} {}l5 5m0-5l-5 5", coord(x - 2.5), coord(y - 2.5)),
+            Marker::Dot | Marker::Square => (0.0, 0.0),
+            Marker::Triangle => (0.0, -3.4),
+            Marker::Diamond => (0.0, -3.0),
+            Marker::Cross => (-2.5, -2.5),
         }
+    }
+
+    /// The mark drawn from its start with relative commands, and where that leaves the pen
+    /// relative to the start (a closed shape returns to it).
+    fn shape(self) -> (&'static str, (f64, f64)) {
+        match self {
+            Marker::Dot | Marker::Square => ("h0", (0.0, 0.0)),
+            Marker::Triangle => ("l3 5.2h-6z", (0.0, 0.0)),
+            Marker::Diamond => ("l3 3-3 3-3-3z", (0.0, 0.0)),
+            Marker::Cross => ("l5 5m0-5l-5 5", (0.0, 5.0)),
+        }
+    }
+
+    /// Side of the thinning cell for this mark, px: about its size.
+    pub(crate) fn cell_px(self) -> f64 {
+        match self {
+            Marker::Dot | Marker::Square => 3.0,
+            Marker::Triangle | Marker::Diamond | Marker::Cross => 4.5,
+        }
+    }
+
+    /// One path holding a mark at each centre (px): the first placed absolutely, the others by
+    /// relative moves in tenths of a pixel, which keeps long series compact.
+    fn path(self, centres: impl Iterator<Item = (f64, f64)>) -> String {
+        let tenths = |v: f64| (v * 10.0).round() as i64;
+        let (dx, dy) = self.start_offset();
+        let (shape, (ex, ey)) = self.shape();
+        let (ex, ey) = (tenths(ex), tenths(ey));
+        let mut data = String::new();
+        let mut pen: Option<(i64, i64)> = None;
+        for (x, y) in centres {
+            let start = (tenths(x + dx), tenths(y + dy));
+            match pen {
+                None => data.push_str(&format!(
+                    "M{} {}",
+                    coord(start.0 as f64 / 10.0),
+                    coord(start.1 as f64 / 10.0)
+                )),
+                Some(p) => {
+                    data.push_str(&format!("m{} {}", rel(start.0 - p.0), rel(start.1 - p.1)))
+                }
+            }
+            data.push_str(shape);
+            pen = Some((start.0 + ex, start.1 + ey));
+        }
+        data
     }
 
     fn draw(self, svg: &mut Svg, data: &str, color: &'static str) {
         match self {
             Marker::Dot => svg.stroked_path(data, &Stroke::solid(color, 3.4), true),
-            Marker::Square => {
-                let d = data.replace('h', "h0.01");
-                svg.stroked_path(&d, &Stroke::solid(color, 3.0), false);
-            }
-            Marker::Triangle | Marker::Diamond => svg.filled_path(data, color, 0.9),
+            Marker::Square => svg.stroked_path(data, &Stroke::solid(color, 3.0), false),
+            Marker::Triangle | Marker::Diamond => svg.filled_path(data, color, 0.75),
             Marker::Cross => svg.stroked_path(data, &Stroke::solid(color, 1.4), false),
         }
+    }
+}
+
+/// A relative offset given in tenths of a pixel, as short as SVG allows.
+fn rel(tenths: i64) -> String {
+    let sign = if tenths < 0 { "-" } else { "" };
+    let a = tenths.unsigned_abs();
+    if a.is_multiple_of(10) {
+        format!("{sign}{}", a / 10)
+    } else {
+        format!("{sign}{}.{}", a / 10, a % 10)
     }
 }
 
@@ -196,9 +249,14 @@ pub fn plot_area_width(width: f64, columns: usize) -> f64 {
     (cell - AXIS_LEFT - AXIS_RIGHT).max(10.0)
 }
 
+/// Height of the data area of a panel `panel_height` tall.
+pub fn plot_area_height(panel_height: f64) -> f64 {
+    (panel_height - PANEL_TOP - AXIS_BOTTOM).max(10.0)
+}
+
 /// Rough text width for layout (no font metrics are available without a font file).
 fn text_width(text: &str, size: f64) -> f64 {
-    text.chars().count() as f64 * size * 0.6
+    text.chars().count() as f64 * size * 0.56
 }
 
 impl Figure {
@@ -270,7 +328,7 @@ fn draw_legend_sample(svg: &mut Svg, entry: &LegendEntry, (x, y): (f64, f64)) {
         svg.line((x, y), (x + 28.0, y), stroke);
     }
     if let Some((marker, color)) = entry.marker {
-        marker.draw(svg, &marker.path(x + 14.0, y), color);
+        marker.draw(svg, &marker.path(std::iter::once((x + 14.0, y))), color);
     }
 }
 
@@ -325,8 +383,10 @@ fn draw_panel(svg: &mut Svg, panel: &Panel, origin: (f64, f64), size: (f64, f64)
     svg.text((area.0, origin.1 + 16.0), &panel.title, &title);
     draw_axes(svg, panel, &x, &y, area);
     if panel.layers.iter().any(Layer::has_data) {
+        // Labels above the frame must not run into the panel title.
+        let title_end = area.0 + text_width(&panel.title, 13.0) * 1.1 + 8.0;
         for layer in &panel.layers {
-            draw_layer(svg, layer, &x, &y);
+            draw_layer(svg, layer, (&x, &y), title_end);
         }
     } else {
         let note = TextStyle::plain(LABEL_SIZE, Anchor::Middle);
@@ -368,7 +428,7 @@ fn draw_axes(svg: &mut Svg, panel: &Panel, x: &Scale, y: &Scale, area: (f64, f64
     svg.text(at, &panel.y_label, &vertical);
 }
 
-fn draw_layer(svg: &mut Svg, layer: &Layer, x: &Scale, y: &Scale) {
+fn draw_layer(svg: &mut Svg, layer: &Layer, (x, y): (&Scale, &Scale), title_end: f64) {
     match layer {
         Layer::Points {
             points,
@@ -399,7 +459,7 @@ fn draw_layer(svg: &mut Svg, layer: &Layer, x: &Scale, y: &Scale) {
             let py = y.px(*v);
             svg.line((x.px_lo, py), (x.px_hi, py), stroke);
             if let Some(label) = label {
-                let style = rule_label_style(stroke, Anchor::End);
+                let style = TextStyle::plain(TICK_SIZE, Anchor::End);
                 svg.text((x.px_hi - 4.0, py - 4.0), label, &style);
             }
         }
@@ -411,21 +471,24 @@ fn draw_layer(svg: &mut Svg, layer: &Layer, x: &Scale, y: &Scale) {
             let px = x.px(*v);
             svg.line((px, y.px_hi), (px, y.px_lo), stroke);
             if let Some(label) = label {
-                let style = rule_label_style(stroke, Anchor::Start);
-                svg.text((px + 3.0, y.px_hi + 11.0), label, &style);
+                draw_rule_label(svg, label, px, (y.px_hi - 4.0, x.px_hi), title_end);
             }
         }
     }
 }
 
-fn rule_label_style(stroke: &Stroke, anchor: Anchor) -> TextStyle {
-    let mut style = TextStyle::plain(TICK_SIZE, anchor);
-    style.color = if stroke.color == colors::BLACK {
-        "#222222"
+/// The label of a vertical line, above the frame: right of the line, or left of it near the
+/// right edge; left out where it would cover the panel title.
+fn draw_rule_label(svg: &mut Svg, label: &str, px: f64, (top, right): (f64, f64), title_end: f64) {
+    let width = text_width(label, TICK_SIZE);
+    let (at, anchor, left_end) = if px + 3.0 + width <= right {
+        (px + 3.0, Anchor::Start, px + 3.0)
     } else {
-        stroke.color
+        (px - 3.0, Anchor::End, px - 3.0 - width)
     };
-    style
+    if left_end >= title_end {
+        svg.text((at, top), label, &TextStyle::plain(TICK_SIZE, anchor));
+    }
 }
 
 fn draw_band(
@@ -473,12 +536,11 @@ fn draw_markers(
     x: &Scale,
     y: &Scale,
 ) {
-    let data: String = points
+    let centres = points
         .iter()
         .filter(|p| p.0.is_finite() && p.1.is_finite())
-        .map(|&(px, py)| marker.path(x.px(px), y.px(py)))
-        .collect();
-    marker.draw(svg, &data, color);
+        .map(|&(px, py)| (x.px(px), y.px(py)));
+    marker.draw(svg, &marker.path(centres), color);
 }
 
 #[cfg(test)]

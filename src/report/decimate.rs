@@ -1,6 +1,81 @@
-//! Thinning long series for drawing: per pixel column only the points with the smallest and
-//! largest value are kept, so a million frames draw as at most two marks per column while every
-//! extreme stays visible. Layout only: it picks minima and maxima, it estimates nothing.
+//! Thinning long series for drawing. Scatter: the first point in each small cell of the plot
+//! area is kept, so a million frames draw as at most one mark per cell and look the same as all
+//! of them would (every occupied cell, extremes included, keeps a mark). Lines: per pixel column
+//! the points with the smallest and largest value are kept. Layout only: nothing is estimated.
+
+use super::scale::Span;
+
+/// Keeps the first point falling in each cell of a grid over the plot area.
+#[derive(Debug, Clone)]
+pub struct Raster {
+    x: Span,
+    y: Span,
+    log_y: bool,
+    columns: usize,
+    rows: usize,
+    occupied: Vec<bool>,
+    kept: Vec<(f64, f64)>,
+}
+
+impl Raster {
+    /// A grid of `cell_px` cells over the value spans `x` and `y` drawn on `size_px`
+    /// (width, height) pixels.
+    pub fn new(x: Span, y: Span, log_y: bool, size_px: (f64, f64), cell_px: f64) -> Self {
+        let columns = ((size_px.0 / cell_px).ceil() as usize).max(1);
+        let rows = ((size_px.1 / cell_px).ceil() as usize).max(1);
+        Self {
+            x,
+            y,
+            log_y,
+            columns,
+            rows,
+            occupied: vec![false; columns * rows],
+            kept: Vec::new(),
+        }
+    }
+
+    fn cell(span: Span, value: f64, count: usize, log: bool) -> usize {
+        let (v, lo, hi) = if log {
+            let floor = span.lo.max(f64::MIN_POSITIVE);
+            (
+                value.max(floor).log10(),
+                floor.log10(),
+                span.hi.max(floor).log10(),
+            )
+        } else {
+            (value, span.lo, span.hi)
+        };
+        let width = hi - lo;
+        if width.is_nan() || width <= 0.0 {
+            return 0;
+        }
+        let t = ((v - lo) / width).clamp(0.0, 1.0);
+        ((t * count as f64) as usize).min(count - 1)
+    }
+
+    /// Offers a point; points with a non-finite coordinate cannot be drawn and are skipped.
+    pub fn push(&mut self, x: f64, y: f64) {
+        if !(x.is_finite() && y.is_finite()) {
+            return;
+        }
+        let c = Self::cell(self.x, x, self.columns, false);
+        let r = Self::cell(self.y, y, self.rows, self.log_y);
+        let slot = &mut self.occupied[r * self.columns + c];
+        if !*slot {
+            *slot = true;
+            self.kept.push((x, y));
+        }
+    }
+
+    pub fn len(&self) -> usize {
+        self.kept.len()
+    }
+
+    /// The kept points, in the order they were offered.
+    pub fn into_points(self) -> Vec<(f64, f64)> {
+        self.kept
+    }
+}
 
 /// Points kept for one pixel column.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -75,6 +150,45 @@ impl Envelope {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn raster_keeps_one_point_per_cell_and_every_extreme() {
+        let span = Span { lo: 0.0, hi: 1.0 };
+        let mut r = Raster::new(span, Span { lo: -1.0, hi: 1.0 }, false, (300.0, 60.0), 3.0);
+        for i in 0..1_000_000u32 {
+            let x = f64::from(i) / 1e6;
+            r.push(x, (f64::from(i) * 0.37).sin());
+        }
+        r.push(0.5, f64::NAN);
+        let kept = r.into_points();
+        assert!(kept.len() <= 100 * 20, "{}", kept.len());
+        assert!(
+            kept.len() > 1000,
+            "a filled band keeps most cells: {}",
+            kept.len()
+        );
+        let top = kept.iter().map(|p| p.1).fold(f64::MIN, f64::max);
+        assert!(top > 0.9, "the top cell row is drawn: {top}");
+    }
+
+    #[test]
+    fn raster_on_a_log_axis_separates_decades() {
+        let x = Span { lo: 0.0, hi: 1.0 };
+        let mut r = Raster::new(
+            x,
+            Span {
+                lo: 0.01,
+                hi: 100.0,
+            },
+            true,
+            (3.0, 12.0),
+            3.0,
+        );
+        for y in [0.02, 0.03, 50.0, 60.0, -1.0] {
+            r.push(0.5, y);
+        }
+        assert_eq!(r.into_points(), vec![(0.5, 0.02), (0.5, 50.0)]);
+    }
 
     #[test]
     fn keeps_extremes_per_column() {

@@ -89,18 +89,33 @@ pub(super) fn segments(outcome: &AuditOutcome, plot: &str) -> String {
          translation in body axes (x forward, y right, z down), rotation as yaw, pitch, roll; \
          95% half-widths (\u{b1})."
     )));
-    let head = head_with_axes(
-        &["#", "frames", "time (s)", "solved"],
-        &[
-            "scatter ratio",
-            "fixed-offset error mm (median / p95 / max)",
-        ],
-    );
+    let head = head_with_axes(&["#", "frames", "time (s)", "solved"], &[]);
     let rows: Vec<Vec<String>> = outcome
         .segments
         .iter()
         .enumerate()
         .map(segment_row)
+        .collect();
+    out.push_str(&table(&head, &rows, 0));
+    out.push_str(&paragraph(
+        "Per segment: the fixed-offset error computed with the segment's mount estimate, and the \
+         scatter of the per-frame deviations against what the stated noise explains (a ratio \
+         well above 1 hints at a loose mount).",
+    ));
+    let head = [
+        "#",
+        "frames with a vector",
+        "error median mm",
+        "error p95 mm",
+        "error max mm",
+        "scatter ratio",
+        "scatter p-value",
+    ];
+    let rows: Vec<Vec<String>> = outcome
+        .segments
+        .iter()
+        .enumerate()
+        .map(segment_quality_row)
         .collect();
     out.push_str(&table(&head, &rows, 0));
     out.push_str(&figure(
@@ -130,22 +145,24 @@ fn segment_row((index, s): (usize, &Segment)) -> Vec<String> {
         &d.rotation_deg,
         &d.rotation_ci95_deg,
     ));
-    let flag = if s.scatter.excess { " (excess)" } else { "" };
-    row.push(format!("{}{flag}", fixed(s.scatter.ratio, 2)));
-    row.push(
-        s.fixed_offset_error_mm
-            .map_or("n/a".into(), |e| error_triple(&e)),
-    );
     row
 }
 
-fn error_triple(e: &ErrorStats) -> String {
-    format!(
-        "{} / {} / {}",
-        fixed(e.median, 1),
-        fixed(e.p95, 1),
-        fixed(e.max, 1)
-    )
+fn segment_quality_row((index, s): (usize, &Segment)) -> Vec<String> {
+    let mut row = vec![index.to_string()];
+    match &s.fixed_offset_error_mm {
+        Some(e) => row.extend([
+            e.frames.to_string(),
+            fixed(e.median, 1),
+            fixed(e.p95, 1),
+            fixed(e.max, 1),
+        ]),
+        None => row.extend(["n/a"; 4].map(String::from)),
+    }
+    let flag = if s.scatter.excess { " (excess)" } else { "" };
+    row.push(format!("{}{flag}", fixed(s.scatter.ratio, 2)));
+    row.push(p_value(s.scatter.p_value));
+    row
 }
 
 pub(super) fn fixed_offset(outcome: &AuditOutcome, plot: &str) -> String {

@@ -4,8 +4,10 @@
 
 use crate::commands::audit::{AuditOutcome, FrameRow};
 
-use super::chart::{colors, plot_area_width, Figure, Layer, LegendEntry, Marker, Panel};
-use super::decimate::Envelope;
+use super::chart::{
+    colors, plot_area_height, plot_area_width, Figure, Layer, LegendEntry, Marker, Panel,
+};
+use super::decimate::Raster;
 use super::format::fixed;
 use super::scale::Span;
 use super::svg::Stroke;
@@ -39,6 +41,9 @@ const CHANGE: Stroke = Stroke::dashed(colors::PURPLE, 1.6, "7 4");
 const ALARM: Stroke = Stroke::dashed(colors::ORANGE, 1.6, "2 3");
 const LIMIT: Stroke = Stroke::dashed(colors::BLACK, 1.4, "9 4");
 const TIME_LABEL: &str = "time (s)";
+const DEVIATION_PANEL_HEIGHT: f64 = 200.0;
+const SINGLE_PANEL_HEIGHT: f64 = 330.0;
+const ERROR_PANEL_HEIGHT: f64 = 320.0;
 
 /// Axis names and units of the six deviation components, in the order of `FrameRow::deviation`.
 const DEVIATION_AXES: [(&str, &str); 6] = [
@@ -54,24 +59,59 @@ fn time_span(rows: &[FrameRow]) -> Option<Span> {
     Span::of(rows.iter().map(|r| r.time_s))
 }
 
-/// One series thinned to the extremes of each pixel column.
+/// Where a series is drawn: the x span shared by the figure, the data area size in pixels
+/// and whether the y axis is logarithmic.
+#[derive(Debug, Clone, Copy)]
+struct Canvas {
+    x_span: Option<Span>,
+    size_px: (f64, f64),
+    log_y: bool,
+}
+
+impl Canvas {
+    fn new(x_span: Option<Span>, columns: usize, panel_height: f64, log_y: bool) -> Self {
+        let size_px = (
+            plot_area_width(PLOT_WIDTH, columns),
+            plot_area_height(panel_height),
+        );
+        Self {
+            x_span,
+            size_px,
+            log_y,
+        }
+    }
+}
+
+/// Most marks one series may draw: past this the thinning cells grow, so a huge session with
+/// noise filling its whole panel still gives a file of a few hundred kilobytes.
+const MARK_BUDGET: usize = 6000;
+
+/// One series thinned to a mark per small cell of the data area (passes over the rows: the
+/// smallest and largest value first, then the cells, again with larger cells if over budget).
 fn thinned(
     rows: &[FrameRow],
-    x_span: Option<Span>,
-    columns: f64,
+    canvas: Canvas,
+    marker: Marker,
     x: impl Fn(&FrameRow) -> Option<f64>,
     y: impl Fn(&FrameRow) -> Option<f64>,
 ) -> Vec<(f64, f64)> {
-    let Some(span) = x_span else {
+    let pairs = || rows.iter().filter_map(|r| Some((x(r)?, y(r)?)));
+    let ys = pairs().map(|p| p.1).filter(|v| !canvas.log_y || *v > 0.0);
+    let (Some(x_span), Some(y_span)) = (canvas.x_span, Span::of(ys)) else {
         return Vec::new();
     };
-    let mut envelope = Envelope::new(span.lo, span.hi, columns.round() as usize);
-    for row in rows {
-        if let (Some(x), Some(y)) = (x(row), y(row)) {
-            envelope.push(x, y);
+    let mut cell_px = marker.cell_px();
+    loop {
+        let mut raster = Raster::new(x_span, y_span, canvas.log_y, canvas.size_px, cell_px);
+        for (px, py) in pairs() {
+            raster.push(px, py);
         }
+        if raster.len() <= MARK_BUDGET {
+            return raster.into_points();
+        }
+        // Cells scale with the square root of the excess (the marks fill an area).
+        cell_px *= (raster.len() as f64 / MARK_BUDGET as f64).sqrt() * 1.05;
     }
-    envelope.points()
 }
 
 /// Change points (and the online alarm) as vertical lines; labelled when `label` is set.
@@ -121,38 +161,32 @@ pub fn deviation_svg(outcome: &AuditOutcome) -> String {
         },
     ];
     legend.extend(event_legend(outcome));
-    let columns = plot_area_width(PLOT_WIDTH, 2);
     let span = time_span(&outcome.rows);
+    let canvas = Canvas::new(span, 2, DEVIATION_PANEL_HEIGHT, false);
     // Row-major grid: translations on the left, rotations on the right.
     let order = [0, 3, 1, 4, 2, 5];
     let panels = order
         .iter()
         .enumerate()
-        .map(|(slot, &axis)| deviation_panel(outcome, axis, slot, span, columns))
+        .map(|(slot, &axis)| deviation_panel(outcome, axis, slot, canvas))
         .collect();
     Figure {
         title: format!("Mount deviation from the {reference}"),
         width: PLOT_WIDTH,
         columns: 2,
-        panel_height: 200.0,
+        panel_height: DEVIATION_PANEL_HEIGHT,
         legend,
         panels,
     }
     .render()
 }
 
-fn deviation_panel(
-    outcome: &AuditOutcome,
-    axis: usize,
-    slot: usize,
-    span: Option<Span>,
-    columns: f64,
-) -> Panel {
+fn deviation_panel(outcome: &AuditOutcome, axis: usize, slot: usize, canvas: Canvas) -> Panel {
     let (name, unit) = DEVIATION_AXES[axis];
     let points = thinned(
         &outcome.rows,
-        span,
-        columns,
+        canvas,
+        Marker::Dot,
         |r| Some(r.time_s),
         |r| r.deviation.map(|d| d[axis]),
     );
@@ -184,7 +218,7 @@ fn deviation_panel(
             String::new()
         },
         y_label: unit.into(),
-        x_span: span.map(|s| s.padded(0.01)),
+        x_span: canvas.x_span.map(|s| s.padded(0.01)),
         layers,
         empty_note: "no solved frames".into(),
         ..Panel::default()
@@ -194,8 +228,14 @@ fn deviation_panel(
 /// (b) The per-frame consistency statistic d2 against time, with the frame threshold.
 pub fn d2_svg(outcome: &AuditOutcome) -> String {
     let span = time_span(&outcome.rows);
-    let columns = plot_area_width(PLOT_WIDTH, 1);
-    let points = thinned(&outcome.rows, span, columns, |r| Some(r.time_s), |r| r.d2);
+    let canvas = Canvas::new(span, 1, SINGLE_PANEL_HEIGHT, true);
+    let points = thinned(
+        &outcome.rows,
+        canvas,
+        Marker::Dot,
+        |r| Some(r.time_s),
+        |r| r.d2,
+    );
     let mut layers = vec![Layer::Points {
         points,
         color: FRAME_POINTS,
@@ -247,7 +287,7 @@ fn single_panel_figure(title: &str, legend: Vec<LegendEntry>, panel: Panel) -> S
         title: title.into(),
         width: PLOT_WIDTH,
         columns: 1,
-        panel_height: 330.0,
+        panel_height: SINGLE_PANEL_HEIGHT,
         legend,
         panels: vec![panel],
     }
@@ -294,11 +334,11 @@ pub fn fixed_offset_svg(outcome: &AuditOutcome) -> String {
         .iter()
         .map(|s| LegendEntry::marker(s.1, s.2, s.3))
         .collect();
-    let columns = plot_area_width(PLOT_WIDTH, 2);
     let range_span = Span::of(rows.iter().filter_map(|r| r.range_m));
-    let time = time_span(rows);
-    let by_range = error_layers(rows, &present, range_span, columns, |r| r.range_m);
-    let by_time = error_layers(rows, &present, time, columns, |r| Some(r.time_s));
+    let by_range = Canvas::new(range_span, 2, ERROR_PANEL_HEIGHT, false);
+    let by_time = Canvas::new(time_span(rows), 2, ERROR_PANEL_HEIGHT, false);
+    let by_range = error_layers(rows, &present, by_range, |r| r.range_m);
+    let by_time = error_layers(rows, &present, by_time, |r| Some(r.time_s));
     let mut panels = [
         error_panel("against range", "probe-to-drogue range (m)", by_range),
         error_panel("against time", TIME_LABEL, by_time),
@@ -330,7 +370,7 @@ pub fn fixed_offset_svg(outcome: &AuditOutcome) -> String {
         title: "Probe-to-drogue vector error".into(),
         width: PLOT_WIDTH,
         columns: 2,
-        panel_height: 320.0,
+        panel_height: ERROR_PANEL_HEIGHT,
         legend,
         panels: panels.into(),
     }
@@ -340,14 +380,15 @@ pub fn fixed_offset_svg(outcome: &AuditOutcome) -> String {
 fn error_layers(
     rows: &[FrameRow],
     series: &[&ErrorSeries],
-    x_span: Option<Span>,
-    columns: f64,
+    canvas: Canvas,
     x: impl Fn(&FrameRow) -> Option<f64> + Copy,
 ) -> Vec<Layer> {
+    // Drawn in reverse so that the first series (dots, the smallest marks) ends on top.
     series
         .iter()
+        .rev()
         .map(|s| Layer::Points {
-            points: thinned(rows, x_span, columns, x, s.0),
+            points: thinned(rows, canvas, s.2, x, s.0),
             color: s.3,
             marker: s.2,
         })
@@ -369,25 +410,38 @@ fn error_panel(title: &str, x_label: &str, layers: Vec<Layer>) -> Panel {
 pub fn fit_svg(outcome: &AuditOutcome) -> String {
     let rows = &outcome.rows;
     let span = time_span(rows);
-    let columns = plot_area_width(PLOT_WIDTH, 1);
-    let probe = thinned(rows, span, columns, |r| Some(r.time_s), |r| r.probe_fit);
-    let drogue = thinned(rows, span, columns, |r| Some(r.time_s), |r| r.drogue_fit);
+    let canvas = Canvas::new(span, 1, SINGLE_PANEL_HEIGHT, true);
+    let probe = thinned(
+        rows,
+        canvas,
+        Marker::Dot,
+        |r| Some(r.time_s),
+        |r| r.probe_fit,
+    );
+    let drogue = thinned(
+        rows,
+        canvas,
+        Marker::Diamond,
+        |r| Some(r.time_s),
+        |r| r.drogue_fit,
+    );
     let unity = Stroke::dashed(colors::BLACK, 1.4, "2 3");
     let mut legend = vec![
         LegendEntry::marker("probe", Marker::Dot, colors::BLUE),
         LegendEntry::marker("drogue", Marker::Diamond, colors::VERMILLION),
         LegendEntry::line("1: the stated pixel sigma holds", unity),
     ];
+    // The probe's dots go on top of the drogue's larger diamonds.
     let mut layers = vec![
-        Layer::Points {
-            points: probe,
-            color: colors::BLUE,
-            marker: Marker::Dot,
-        },
         Layer::Points {
             points: drogue,
             color: colors::VERMILLION,
             marker: Marker::Diamond,
+        },
+        Layer::Points {
+            points: probe,
+            color: colors::BLUE,
+            marker: Marker::Dot,
         },
         Layer::HRule {
             y: 1.0,
