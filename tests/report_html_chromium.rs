@@ -8,6 +8,7 @@ mod report_demo;
 use std::io::Read;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output, Stdio};
+use std::sync::OnceLock;
 use std::thread::JoinHandle;
 use std::time::{Duration, Instant};
 
@@ -20,7 +21,14 @@ fn on_path(name: &str) -> Option<PathBuf> {
         .find(|candidate| candidate.is_file())
 }
 
+/// The browser, installed at most once per test run (the tests run in parallel threads and
+/// two package installs at once would fight over the package manager's lock).
 fn chromium() -> PathBuf {
+    static BROWSER: OnceLock<PathBuf> = OnceLock::new();
+    BROWSER.get_or_init(find_or_install_chromium).clone()
+}
+
+fn find_or_install_chromium() -> PathBuf {
     if let Some(found) = BROWSER_NAMES.iter().find_map(|n| on_path(n)) {
         return found;
     }

@@ -268,3 +268,23 @@ fn long_curves_are_thinned() {
     assert!(svg.len() < 60_000, "{}", svg.len());
     parse(&svg);
 }
+
+#[test]
+fn values_that_are_not_finite_are_left_out() {
+    let mut outcome = report_demo::shifted_outcome();
+    outcome.segments[0].mount_deviation.translation_ci95_mm[0] = f64::NAN;
+    outcome.change_points[0].time_s = f64::INFINITY;
+    if let Some(fo) = outcome.fixed_offset.as_mut() {
+        fo.tolerance_mm = f64::NAN;
+    }
+    outcome.rows[3].deviation = Some([f64::NAN; 6]);
+    outcome.rows[4].d2 = Some(f64::INFINITY);
+    let plots = AuditPlots::render(&outcome);
+    for svg in [&plots.deviation, &plots.d2, &plots.fixed_offset, &plots.fit] {
+        parse(svg);
+        assert!(
+            !svg.contains("NaN") && !svg.contains("inf"),
+            "a non-finite value was drawn"
+        );
+    }
+}

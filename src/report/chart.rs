@@ -167,6 +167,18 @@ impl Layer {
         }
     }
 
+    /// Bands and rules need finite positions (points are filtered one by one).
+    fn is_drawable(&self) -> bool {
+        match self {
+            Layer::Points { .. } | Layer::Line { .. } => true,
+            Layer::Band {
+                x, y, half_width, ..
+            } => [x.0, x.1, *y, *half_width].iter().all(|v| v.is_finite()),
+            Layer::HRule { y, .. } => y.is_finite(),
+            Layer::VRule { x, .. } => x.is_finite(),
+        }
+    }
+
     fn has_data(&self) -> bool {
         match self {
             Layer::Points { points, .. } | Layer::Line { points, .. } => !points.is_empty(),
@@ -429,6 +441,9 @@ fn draw_axes(svg: &mut Svg, panel: &Panel, x: &Scale, y: &Scale, area: (f64, f64
 }
 
 fn draw_layer(svg: &mut Svg, layer: &Layer, (x, y): (&Scale, &Scale), title_end: f64) {
+    if !layer.is_drawable() {
+        return;
+    }
     match layer {
         Layer::Points {
             points,
