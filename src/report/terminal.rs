@@ -1,0 +1,318 @@
+//! The terminal summary of an audit, read in ten seconds: verdict and gate on the first line,
+//! then change points, segments, fixed-offset error, data quality and warnings with advice.
+//! Colour only when the style says so; the text is the same either way.
+
+use std::io::{self, Write};
+
+use crate::commands::audit::{AuditOutcome, ChangePoint, Gate, Segment, Verdict};
+
+use super::format::{
+    fixed, gate_word, p_value, reason, signed, verdict_sentence, verdict_word, with_ci,
+};
+use super::style::{TerminalStyle, Tone};
+
+/// Writes the summary of `outcome`.
+pub fn write_audit_summary(
+    w: &mut dyn Write,
+    outcome: &AuditOutcome,
+    style: TerminalStyle,
+) -> io::Result<()> {
+    let mut out = String::new();
+    headline(&mut out, outcome, style);
+    change_points(&mut out, outcome, style);
+    segments(&mut out, outcome, style);
+    fixed_offset(&mut out, outcome, style);
+    data_quality(&mut out, outcome, style);
+    warnings(&mut out, outcome, style);
+    w.write_all(out.as_bytes())
+}
+
+fn verdict_tone(verdict: Verdict) -> Tone {
+    match verdict {
+        Verdict::Stable => Tone::Good,
+        Verdict::OffNominal => Tone::Caution,
+        Verdict::Shifted => Tone::Bad,
+    }
+}
+
+fn gate_tone(gate: Gate) -> Tone {
+    match gate {
+        Gate::Pass => Tone::Good,
+        Gate::Fail => Tone::Bad,
+    }
+}
+
+fn heading(out: &mut String, text: &str, style: TerminalStyle) {
+    out.push('\n');
+    out.push_str(&style.paint(text, Tone::Heading));
+    out.push('\n');
+}
+
+fn headline(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) {
+    let verdict = style.paint(verdict_word(outcome.verdict), verdict_tone(outcome.verdict));
+    let gate = style.paint(
+        &format!("gate {}", gate_word(outcome.gate)),
+        gate_tone(outcome.gate),
+    );
+    out.push_str(&format!("{verdict} \u{b7} {gate}\n"));
+    out.push_str(&format!("  {}\n", verdict_sentence(outcome)));
+    for why in &outcome.gate_reasons {
+        out.push_str(&format!("  {} {why}\n", style.paint("fails:", Tone::Bad)));
+    }
+    let f = &outcome.frames;
+    let span = match (outcome.rows.first(), outcome.rows.last()) {
+        (Some(a), Some(b)) => format!(", {}-{} s", fixed(a.time_s, 2), fixed(b.time_s, 2)),
+        _ => String::new(),
+    };
+    let line = format!(
+        "session {}: {} frames, {} solved, {} rejected{span}",
+        outcome.inputs.session, f.total, f.solved, f.rejected
+    );
+    out.push_str(&style.paint(&line, Tone::Dim));
+    out.push('\n');
+}
+
+/// Rows of cells printed with each column as wide as its widest cell; the first `left`
+/// columns are left-aligned, the rest right-aligned.
+fn table(out: &mut String, rows: &[Vec<String>], left: usize) {
+    let columns = rows.iter().map(Vec::len).max().unwrap_or(0);
+    let widths: Vec<usize> = (0..columns)
+        .map(|c| {
+            rows.iter()
+                .filter_map(|r| r.get(c))
+                .map(|s| s.chars().count())
+                .max()
+                .unwrap_or(0)
+        })
+        .collect();
+    for row in rows {
+        let mut line = String::new();
+        for (c, cell) in row.iter().enumerate() {
+            let pad = " ".repeat(widths[c] - cell.chars().count());
+            line.push_str("  ");
+            if c < left {
+                line.push_str(cell);
+                line.push_str(&pad);
+            } else {
+                line.push_str(&pad);
+                line.push_str(cell);
+            }
+        }
+        out.push_str(line.trim_end());
+        out.push('\n');
+    }
+}
+
+const AXIS_HEADERS: [&str; 6] = ["x mm", "y mm", "z mm", "yaw deg", "pitch deg", "roll deg"];
+
+fn change_points(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) {
+    heading(
+        out,
+        "Change points (shift from the segment before, \u{b1} 95%)",
+        style,
+    );
+    if outcome.change_points.is_empty() {
+        out.push_str("  none found\n");
+    }
+    for cp in &outcome.change_points {
+        change_point(out, cp);
+    }
+    if let Some(alarm) = &outcome.online_alarm {
+        let delay = match alarm.delay_frames {
+            Some(d) => format!(", {d} frames after the change point"),
+            None => String::new(),
+        };
+        out.push_str(&format!(
+            "  online alarm ({}) at frame {} (t = {} s){delay}\n",
+            alarm.detector,
+            alarm.frame,
+            fixed(alarm.time_s, 2)
+        ));
+    }
+}
+
+fn change_point(out: &mut String, cp: &ChangePoint) {
+    out.push_str(&format!(
+        "  frame {} (95%: {}-{}), t = {} s\n",
+        cp.frame,
+        cp.frame_ci95[0],
+        cp.frame_ci95[1],
+        fixed(cp.time_s, 2)
+    ));
+    let t: Vec<String> = (0..3)
+        .map(|i| with_ci(cp.translation_mm[i], cp.translation_ci95_mm[i], 2))
+        .collect();
+    let r: Vec<String> = (0..3)
+        .map(|i| with_ci(cp.rotation_deg[i], cp.rotation_ci95_deg[i], 3))
+        .collect();
+    out.push_str(&format!(
+        "    translation  x {}  y {}  z {} mm\n",
+        t[0], t[1], t[2]
+    ));
+    out.push_str(&format!(
+        "    rotation     yaw {}  pitch {}  roll {} deg\n",
+        r[0], r[1], r[2]
+    ));
+}
+
+fn segments(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) {
+    let reference = if outcome.inputs.nominal_mount.is_some() {
+        "nominal"
+    } else {
+        "first segment"
+    };
+    heading(
+        out,
+        &format!("Segments (mount deviation from the {reference})"),
+        style,
+    );
+    let head = ["#", "frames", "solved"]
+        .iter()
+        .chain(AXIS_HEADERS.iter())
+        .chain(["fixed err p95 mm"].iter());
+    let mut rows = vec![head.map(|s| s.to_string()).collect()];
+    rows.extend(outcome.segments.iter().enumerate().map(segment_row));
+    table(out, &rows, 2);
+}
+
+fn segment_row((index, s): (usize, &Segment)) -> Vec<String> {
+    let d = &s.mount_deviation;
+    let mut row = vec![
+        index.to_string(),
+        format!("{}-{}", s.first_frame, s.last_frame),
+        s.solved_frames.to_string(),
+    ];
+    row.extend(d.translation_mm.iter().map(|v| signed(*v, 2)));
+    row.extend(d.rotation_deg.iter().map(|v| signed(*v, 3)));
+    row.push(
+        s.fixed_offset_error_mm
+            .map_or("-".into(), |e| fixed(e.p95, 1)),
+    );
+    row
+}
+
+fn fixed_offset(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) {
+    let Some(fo) = &outcome.fixed_offset else {
+        heading(out, "Fixed-offset error", style);
+        out.push_str("  not computed: no nominal mount was given\n");
+        truth_line(out, outcome);
+        return;
+    };
+    heading(
+        out,
+        &format!(
+            "Fixed-offset error (tolerance {} mm within {} m range)",
+            fixed(fo.tolerance_mm, 1),
+            fixed(fo.contact_range_m, 1)
+        ),
+        style,
+    );
+    let over = format!("{} frames over tolerance", fo.frames_over_tolerance);
+    let over = if fo.frames_over_tolerance > 0 {
+        style.paint(&over, Tone::Bad)
+    } else {
+        over
+    };
+    let first = fo
+        .first_frame_over_tolerance
+        .map_or(String::new(), |f| format!(", the first at frame {f}"));
+    out.push_str(&format!(
+        "  max {} mm, {over}{first}\n",
+        fixed(fo.max_error_mm, 1)
+    ));
+    truth_line(out, outcome);
+}
+
+fn truth_line(out: &mut String, outcome: &AuditOutcome) {
+    let Some(truth) = &outcome.truth else {
+        return;
+    };
+    let d = &truth.dual_error_mm;
+    let mut line = format!(
+        "  against truth: dual-object error p95 {} mm (max {})",
+        fixed(d.p95, 1),
+        fixed(d.max, 1)
+    );
+    if let Some(f) = &truth.fixed_error_mm {
+        line.push_str(&format!(
+            ", fixed-offset p95 {} mm (max {})",
+            fixed(f.p95, 1),
+            fixed(f.max, 1)
+        ));
+    }
+    out.push_str(&line);
+    out.push('\n');
+}
+
+fn data_quality(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) {
+    heading(out, "Data quality", style);
+    let f = &outcome.frames;
+    let mut rows = vec![vec![
+        "frames".to_string(),
+        format!(
+            "{} read, {} solved ({} with the drogue), {} rejected",
+            f.total, f.solved, f.both_solved, f.rejected
+        ),
+    ]];
+    if !f.rejected_by_reason.is_empty() {
+        let reasons: Vec<String> = f
+            .rejected_by_reason
+            .iter()
+            .map(|(why, n)| format!("{} {n}", reason(why)))
+            .collect();
+        rows.push(vec!["rejected".into(), reasons.join(", ")]);
+    }
+    rows.push(vec![
+        "flags".into(),
+        format!(
+            "{} probe ill-conditioned, {} drogue ambiguous, {} outlier keypoints dropped",
+            f.probe_ill_conditioned, f.drogue_ambiguous, f.outlier_keypoints
+        ),
+    ]);
+    rows.push(vec!["pixel sigma".into(), sigma_text(outcome, style)]);
+    if let Some(nc) = &outcome.nominal_consistency {
+        rows.push(vec![
+            "vs nominal".into(),
+            format!(
+                "{} of {} frames over the d2 threshold {}; session p = {}",
+                nc.frames_over_threshold,
+                nc.frames_tested,
+                fixed(nc.frame_threshold_d2, 2),
+                p_value(nc.session_p_value)
+            ),
+        ]);
+    }
+    table(out, &rows, 2);
+}
+
+fn sigma_text(outcome: &AuditOutcome, style: TerminalStyle) -> String {
+    let s = &outcome.pixel_sigma;
+    let stated = format!("stated {} px", fixed(s.assumed, 2));
+    let Some(estimated) = s.estimated else {
+        return format!("{stated}, not estimated (no redundant keypoints)");
+    };
+    let ci = s.estimated_ci95.map_or(String::new(), |[lo, hi]| {
+        format!(" (95%: {}-{})", fixed(lo, 2), fixed(hi, 2))
+    });
+    let agreement = if s.consistent {
+        "consistent".to_string()
+    } else {
+        style.paint("NOT consistent", Tone::Caution)
+    };
+    format!(
+        "{stated}, estimated {} px{ci}: {agreement}",
+        fixed(estimated, 2)
+    )
+}
+
+fn warnings(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) {
+    if outcome.warnings.is_empty() {
+        return;
+    }
+    heading(out, "Warnings", style);
+    for warning in &outcome.warnings {
+        let mark = style.paint("!", Tone::Caution);
+        out.push_str(&format!("  {mark} {}\n", warning.message));
+        out.push_str(&format!("    advice: {}\n", warning.advice));
+    }
+}

@@ -1,0 +1,113 @@
+//! Terminal summary of hand-built audit outcomes (invented demo numbers, see report_demo): the
+//! exact text of a shifted session, no escape codes without colour, and lines that fit.
+
+mod report_demo;
+
+use mountdrift::commands::audit::AuditOutcome;
+use mountdrift::report::{write_audit_summary, TerminalStyle};
+
+fn summary(outcome: &AuditOutcome, style: TerminalStyle) -> String {
+    let mut out = Vec::new();
+    write_audit_summary(&mut out, outcome, style).unwrap();
+    String::from_utf8(out).unwrap()
+}
+
+/// Removes ANSI SGR sequences (`ESC [ ... m`).
+fn strip_ansi(text: &str) -> String {
+    let mut out = String::new();
+    let mut chars = text.chars();
+    while let Some(c) = chars.next() {
+        if c == '\u{1b}' {
+            for d in chars.by_ref() {
+                if d == 'm' {
+                    break;
+                }
+            }
+        } else {
+            out.push(c);
+        }
+    }
+    out
+}
+
+const SHIFTED_SUMMARY: &str = "\
+SHIFTED \u{b7} gate FAIL
+  The mount moved during the session: 1 change point at frame 1800 (t = 60.00 s).
+  fails: The fixed-offset error reaches 41.3 mm, over the 30.0 mm tolerance near contact.
+session demo/bracket-slip.yaml: 3000 frames, 2950 solved, 50 rejected, 0.00-99.97 s
+
+Change points (shift from the segment before, \u{b1} 95%)
+  frame 1800 (95%: 1796-1803), t = 60.00 s
+    translation  x +4.20\u{b1}0.31  y -1.50\u{b1}0.28  z +0.80\u{b1}0.55 mm
+    rotation     yaw +0.180\u{b1}0.012  pitch -0.060\u{b1}0.010  roll +0.020\u{b1}0.015 deg
+  online alarm (CUSUM) at frame 1812 (t = 60.40 s), 12 frames after the change point
+
+Segments (mount deviation from the nominal)
+  #  frames     solved   x mm   y mm   z mm  yaw deg  pitch deg  roll deg  fixed err p95 mm
+  0  0-1799       1770  +0.30  -0.20  +0.50   +0.010     +0.005    -0.010               6.4
+  1  1800-2999    1180  +4.50  -1.70  +1.30   +0.190     -0.055    +0.010              38.9
+
+Fixed-offset error (tolerance 30.0 mm within 15.0 m range)
+  max 41.3 mm, 214 frames over tolerance, the first at frame 1807
+  against truth: dual-object error p95 2.6 mm (max 4.9), fixed-offset p95 37.8 mm (max 44.0)
+
+Data quality
+  frames       3000 read, 2950 solved (2920 with the drogue), 50 rejected
+  rejected     probe: too few points 50
+  flags        4 probe ill-conditioned, 11 drogue ambiguous, 27 outlier keypoints dropped
+  pixel sigma  stated 1.00 px, estimated 1.12 px (95%: 1.10-1.14): NOT consistent
+  vs nominal   1120 of 2950 frames over the d2 threshold 16.81; session p = 3.2e-12
+
+Warnings
+  ! The reprojection residuals suggest a pixel sigma of 1.12 px while 1.00 px is stated.
+    advice: Set pixel_sigma in the camera file to the estimate, or check the keypoint detector.
+  ! 11 drogue poses had two nearly equal planar solutions.
+    advice: Add a drogue keypoint off the plane of the others.
+";
+
+#[test]
+fn shifted_session_reads_as_expected() {
+    let text = summary(&report_demo::shifted_outcome(), TerminalStyle::PLAIN);
+    assert_eq!(text, SHIFTED_SUMMARY, "got:\n{text}");
+}
+
+#[test]
+fn verdict_and_gate_come_first() {
+    let stable = summary(&report_demo::stable_outcome(), TerminalStyle::PLAIN);
+    assert!(stable.starts_with("STABLE \u{b7} gate PASS\n"), "{stable}");
+    assert!(stable.contains("no nominal mount was given to compare with"));
+    assert!(stable.contains("Fixed-offset error\n  not computed: no nominal mount was given\n"));
+    assert!(stable
+        .contains("Change points (shift from the segment before, \u{b1} 95%)\n  none found\n"));
+}
+
+#[test]
+fn without_colour_no_escape_codes_appear() {
+    for outcome in [
+        report_demo::shifted_outcome(),
+        report_demo::stable_outcome(),
+    ] {
+        let text = summary(&outcome, TerminalStyle::PLAIN);
+        assert!(!text.contains('\u{1b}'), "escape code in:\n{text}");
+    }
+}
+
+#[test]
+fn colour_only_adds_styling() {
+    let outcome = report_demo::shifted_outcome();
+    let plain = summary(&outcome, TerminalStyle::PLAIN);
+    let coloured = summary(&outcome, TerminalStyle { color: true });
+    assert!(
+        coloured.starts_with("\u{1b}[1;31mSHIFTED\u{1b}[0m"),
+        "{coloured}"
+    );
+    assert_eq!(strip_ansi(&coloured), plain);
+}
+
+#[test]
+fn lines_fit_a_hundred_columns() {
+    let text = summary(&report_demo::shifted_outcome(), TerminalStyle::PLAIN);
+    for line in text.lines() {
+        assert!(line.chars().count() <= 100, "too long: {line}");
+    }
+}
