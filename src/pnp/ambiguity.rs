@@ -6,26 +6,29 @@
 //! Pinz, PAMI 2006). For a point set whose relief off its best-fit plane projects to few
 //! standard deviations, the mirror of the refined pose (`R' = S R F`, with S the reflection
 //! along the line of sight to the centroid and F the reflection of the model across its plane)
-//! starts a second refinement; the better minimum is reported and the other kept with the cost
-//! difference.
+//! starts a second least-squares refinement over the same inliers; the better minimum is
+//! reported and the other kept with the chi-square difference.
 
 use nalgebra::Matrix3;
 
 use super::pose::Pose;
 use super::prepare::PointGeometry;
-use super::refine::{robust_solve, Problem, Solution};
+use super::refine::{levenberg_marquardt, robust_solve, Loss, Problem, Solution};
 use super::PoseStart;
 use crate::tol;
 
-/// The other minimum.
+/// The other minimum, refined over the same inliers as the solution.
 #[derive(Debug, Clone, Copy)]
 pub(crate) struct Alternative {
     pub(crate) pose: Pose,
-    pub(crate) gated_cost: f64,
+    /// Chi-square over the solution's inliers.
+    pub(crate) chi2: f64,
 }
 
-/// Refines the mirror of `solution` when the target is planar or its relief is weakly seen;
-/// swaps it in when it fits better. Returns the other minimum when it is distinct.
+/// Refines the mirror of `solution` by least squares over its inliers when the target is planar
+/// or its relief is weakly seen. If the mirror fits better it becomes the solution (re-gated from
+/// its own pose) and the former solution, refined over the new inliers, the alternative. Returns
+/// the alternative when it is a distinct minimum.
 pub(crate) fn examine(
     problem: &Problem,
     geometry: &PointGeometry,
@@ -35,21 +38,30 @@ pub(crate) fn examine(
         return None;
     }
     let start = mirror(&solution.pose, geometry)?;
-    let mut other = robust_solve(problem, start, PoseStart::Mirror)?;
-    if !other.converged {
-        return None;
+    let alt = refine_over(problem, &solution.inliers, start)?;
+    if alt.chi2 >= solution.normal.cost {
+        return distinct(alt, solution);
     }
-    let d = other.pose.minus(&solution.pose);
-    if d.dot(&(solution.normal.h * d)) < tol::MIRROR_SAME_CHI2 {
-        return None;
-    }
-    if other.gated_cost < solution.gated_cost {
-        std::mem::swap(solution, &mut other);
-    }
-    Some(Alternative {
-        pose: other.pose,
-        gated_cost: other.gated_cost,
+    let better = robust_solve(problem, alt.pose, PoseStart::Mirror).filter(|s| s.converged)?;
+    let former = refine_over(problem, &better.inliers, solution.pose)?;
+    *solution = better;
+    distinct(former, solution)
+}
+
+/// Least squares over the given inliers from `start`; `None` unless it converges.
+fn refine_over(problem: &Problem, inliers: &[bool], start: Pose) -> Option<Alternative> {
+    let run = levenberg_marquardt(problem, inliers, Loss::Squared, start)?;
+    run.converged.then_some(Alternative {
+        pose: run.pose,
+        chi2: run.normal.cost,
     })
+}
+
+/// The alternative unless it converged back onto the solution (closer than
+/// `tol::MIRROR_SAME_CHI2` in the metric of the solution's information).
+fn distinct(alt: Alternative, solution: &Solution) -> Option<Alternative> {
+    let d = alt.pose.minus(&solution.pose);
+    (d.dot(&(solution.normal.h * d)) >= tol::MIRROR_SAME_CHI2).then_some(alt)
 }
 
 /// Whether the model's relief off its best-fit plane, seen from the current pose, spans fewer

@@ -109,12 +109,12 @@ impl PoseEstimate {
 /// The other local minimum of an ambiguous (planar or weak-perspective) pose problem.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Ambiguity {
-    /// The alternative pose `T_CO`, refined to its own minimum.
+    /// The alternative pose `T_CO`, refined to its own minimum over the same inliers.
     pub alternative: Isometry3<f64>,
-    /// Its gated cost `Σ min(r², τ)` (chi-square units, τ the inlier gate).
+    /// Its chi-square over the reported pose's inliers.
     pub alternative_chi2: f64,
-    /// How much worse the alternative fits (≥ 0): gated cost of the alternative minus that of the
-    /// reported pose. Equals the chi-square difference when both keep the same inliers.
+    /// How much worse the alternative fits (≥ 0): `alternative_chi2 − chi2`, a likelihood-ratio
+    /// statistic between the two minima.
     pub delta_chi2: f64,
 }
 
@@ -479,8 +479,8 @@ fn build_estimate(
     let used = solution.inlier_count();
     let ambiguity = alternative.map(|a| Ambiguity {
         alternative: a.pose.to_isometry(),
-        alternative_chi2: a.gated_cost,
-        delta_chi2: (a.gated_cost - solution.gated_cost).max(0.0),
+        alternative_chi2: a.chi2,
+        delta_chi2: (a.chi2 - solution.normal.cost).max(0.0),
     });
     let ambiguous = ambiguity
         .as_ref()
