@@ -109,14 +109,17 @@ fn matrix6(v: &Value) -> Matrix6<f64> {
     Matrix6::from_fn(|i, j| rows[i][j])
 }
 
-/// The CHECK_VALUES.md section 4 problem: K = 800/320/240, 8 points, true rvec (0.1, −0.2, 0.3),
-/// tvec (0.05, −0.1, 4.0), noise-free projections plus a fixed perturbation.
-fn anchor() -> (
+/// Camera, model points, observed pixels and true pose.
+type Anchor = (
     Camera,
     Vec<Vector3<f64>>,
     Vec<Vector2<f64>>,
     nalgebra::Isometry3<f64>,
-) {
+);
+
+/// The CHECK_VALUES.md section 4 problem: K = 800/320/240, 8 points, true rvec (0.1, −0.2, 0.3),
+/// tvec (0.05, −0.1, 4.0), noise-free projections plus a fixed perturbation.
+fn anchor() -> Anchor {
     let cam = Camera::ideal(640, 480, 800.0, 320.0, 240.0);
     let points: Vec<Vector3<f64>> = [
         [-0.5, -0.5, 0.0],
