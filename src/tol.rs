@@ -153,3 +153,19 @@ pub const POLAR_MAX_ITER: usize = 20;
 /// The polar iteration stops when an update moves the (near-orthogonal) matrix by less than this
 /// per unit column.
 pub const POLAR_STEP: f64 = 1e-13;
+
+/// When the best solution from all points leaves some point outside the gate, starts from
+/// subsets (leave-one-out and random) are ranked by gated cost and this many are refined too.
+pub const PNP_SUBSET_REFINED: usize = 3;
+
+/// Random subsets tried when outliers are suspected. With 2 outliers among 16 points a random 6-point subset is clean with probability 0.375, so 20 miss
+/// every clean subset with probability 0.625^20 ≈ 1e-4.
+pub const PNP_RANDOM_SUBSETS: usize = 20;
+
+/// Fixed seed of the subset sampler, so that a frame always gets the same answer.
+pub const PNP_SUBSET_SEED: u64 = 0x6d6f_756e_7464_7269;
+
+/// The Huber stage only has to reach the right basin before the gate: it stops once its step is
+/// below this (about 0.01 standard deviations); least squares over the inliers then converges to
+/// `LM_STEP_CHI2`.
+pub const HUBER_STEP_CHI2: f64 = 1e-4;

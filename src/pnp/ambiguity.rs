@@ -13,7 +13,7 @@ use nalgebra::Matrix3;
 
 use super::pose::Pose;
 use super::prepare::PointGeometry;
-use super::refine::{levenberg_marquardt, robust_solve, Loss, Problem, Solution};
+use super::refine::{gated_cost, levenberg_marquardt, robust_solve, Loss, Problem, Solution};
 use super::PoseStart;
 use crate::tol;
 
@@ -39,10 +39,16 @@ pub(crate) fn examine(
     }
     let start = mirror(&solution.pose, geometry)?;
     let alt = refine_over(problem, &solution.inliers, start)?;
-    if alt.chi2 >= solution.normal.cost {
+    // The mirror may also explain points the solution gated out: compare over all points too.
+    let fits_better =
+        alt.chi2 < solution.normal.cost || gated_cost(problem, &alt.pose) < solution.gated_cost;
+    let better = fits_better
+        .then(|| robust_solve(problem, alt.pose, PoseStart::Mirror))
+        .flatten()
+        .filter(|s| s.converged && s.better_than(solution));
+    let Some(better) = better else {
         return distinct(alt, solution);
-    }
-    let better = robust_solve(problem, alt.pose, PoseStart::Mirror).filter(|s| s.converged)?;
+    };
     let former = refine_over(problem, &better.inliers, solution.pose)?;
     *solution = better;
     distinct(former, solution)
@@ -50,7 +56,7 @@ pub(crate) fn examine(
 
 /// Least squares over the given inliers from `start`; `None` unless it converges.
 fn refine_over(problem: &Problem, inliers: &[bool], start: Pose) -> Option<Alternative> {
-    let run = levenberg_marquardt(problem, inliers, Loss::Squared, start)?;
+    let run = levenberg_marquardt(problem, inliers, Loss::Squared, start, tol::LM_STEP_CHI2)?;
     run.converged.then_some(Alternative {
         pose: run.pose,
         chi2: run.normal.cost,

@@ -20,6 +20,7 @@ mod planar;
 mod pose;
 mod prepare;
 mod refine;
+mod start;
 mod uncertainty;
 
 use nalgebra::{Isometry3, Matrix6};
@@ -299,6 +300,9 @@ fn solve(
 ) -> Result<PoseEstimate, Rejection> {
     let mut pts = prepare::gather(model, obs)?;
     let gate = Gate::from_options(options);
+    // A warm start that fits every point is final; one that gates points out competes with the
+    // global search, which may find a pose that explains more of them.
+    let mut warm_pose = None;
     if let Some(warm) = warm_start {
         let geometry = PointGeometry::of(pts.iter().map(|c| c.model_m));
         geometry.check()?;
@@ -307,8 +311,12 @@ fn solve(
             pts: &pts,
             gate: &gate,
         };
-        if let Some(solution) = try_warm(&problem, warm, options) {
-            return conclude(&problem, &geometry, solution, obs.len(), options);
+        match try_warm(&problem, warm, options) {
+            Some(s) if s.inlier_count() == pts.len() => {
+                return conclude(&problem, &geometry, s, obs.len(), options);
+            }
+            Some(s) => warm_pose = Some(s.pose),
+            None => {}
         }
     }
     prepare::undistort_all(camera, &mut pts)?;
@@ -319,7 +327,7 @@ fn solve(
         pts: &pts,
         gate: &gate,
     };
-    let solution = global_solution(&problem, &geometry)?;
+    let solution = global_solution(&problem, &geometry, warm_pose)?;
     conclude(&problem, &geometry, solution, obs.len(), options)
 }
 
@@ -369,33 +377,44 @@ fn try_warm(
     })
 }
 
-/// Tries the global starts in order of their initial cost and keeps the best refined solution;
-/// stops early once a start converges with every point an inlier.
+/// Tries the global starts in order of their initial cost (after the refined warm pose, if any)
+/// and keeps the best refined solution; stops early once a start converges with every point an
+/// inlier, and searches subsets when none does.
 fn global_solution(
     problem: &refine::Problem,
     geometry: &PointGeometry,
+    warm_pose: Option<Pose>,
 ) -> Result<Solution, Rejection> {
-    let starts = global_starts(problem, geometry);
-    if starts.is_empty() {
+    let starts = start::global_starts(problem, geometry);
+    if starts.is_empty() && warm_pose.is_none() {
         return Err(Rejection::new(
             RejectionReason::DegenerateGeometry,
             "no start pose could be computed: the observed model points are in a degenerate \
              configuration (for 4 coplanar points, three of them are collinear)",
         ));
     }
-    let mut best: Option<Solution> = None;
-    let mut any_in_front = false;
+    let mut best: Option<Solution> =
+        warm_pose.and_then(|p| refine::robust_solve(problem, p, PoseStart::Warm));
+    let mut any_in_front = best.is_some();
+    let n = problem.pts.len();
     for (pose, kind) in starts.into_iter().take(tol::PNP_MAX_STARTS) {
-        let Some(s) = refine::robust_solve(problem, pose, kind) else {
-            continue;
-        };
-        any_in_front = true;
-        let clean = s.converged && s.inlier_count() == problem.pts.len();
-        if best.as_ref().is_none_or(|b| s.better_than(b)) {
-            best = Some(s);
+        any_in_front |= refine::all_in_front(problem, &pose);
+        if let Some(s) = refine::robust_solve(problem, pose, kind) {
+            let clean = s.converged && s.inlier_count() == n;
+            keep_better(&mut best, s);
+            if clean {
+                break;
+            }
         }
-        if clean {
-            break;
+    }
+    // Outliers can drag every start computed from all points into a wrong basin: retry from
+    // starts computed on subsets that leave them out.
+    if best.as_ref().is_none_or(|b| b.inlier_count() < n) {
+        for (pose, kind) in start::subset_starts(problem) {
+            any_in_front |= refine::all_in_front(problem, &pose);
+            if let Some(s) = refine::robust_solve(problem, pose, kind) {
+                keep_better(&mut best, s);
+            }
         }
     }
     match best {
@@ -412,39 +431,16 @@ fn global_solution(
             "no start pose puts the observed model points in front of the camera",
         )),
         None => Err(Rejection::new(
-            RejectionReason::NotConverged,
-            "no pose refinement converged",
+            RejectionReason::TooManyOutliers,
+            "no start led to a pose that fits at least 4 keypoints",
         )),
     }
 }
 
-/// Candidate starts, sorted by their initial gated cost (best first). Planar and near-planar sets
-/// get both IPPE solutions; non-planar and near-planar sets get the EPnP solutions.
-fn global_starts(problem: &refine::Problem, geometry: &PointGeometry) -> Vec<(Pose, PoseStart)> {
-    let mut starts: Vec<(Pose, PoseStart)> = Vec::with_capacity(6);
-    let planarity = geometry.planarity();
-    if planarity < tol::PNP_NEAR_PLANAR_REL {
-        for p in planar::ippe_starts(problem.pts, geometry)
-            .into_iter()
-            .flatten()
-        {
-            starts.push((p, PoseStart::Planar));
-        }
+fn keep_better(best: &mut Option<Solution>, s: Solution) {
+    if best.as_ref().is_none_or(|b| s.better_than(b)) {
+        *best = Some(s);
     }
-    if planarity >= tol::PNP_PLANAR_REL {
-        for p in epnp::epnp_starts(problem.pts, geometry, problem.noise_floor()) {
-            starts.push((p, PoseStart::Epnp));
-        }
-    }
-    if starts.len() < 2 {
-        return starts;
-    }
-    let mut scored: Vec<(f64, Pose, PoseStart)> = starts
-        .into_iter()
-        .map(|(p, k)| (refine::gated_cost(problem, &p), p, k))
-        .collect();
-    scored.sort_by(|a, b| a.0.total_cmp(&b.0));
-    scored.into_iter().map(|(_, p, k)| (p, k)).collect()
 }
 
 fn check_inliers(s: &Solution, usable: usize, options: &PnpOptions) -> Result<(), Rejection> {

@@ -154,6 +154,14 @@ pub(crate) fn accumulate(
     Some(Normal { h, g, cost, max_sq })
 }
 
+/// Whether every point lies in front of the camera at `pose`.
+pub(crate) fn all_in_front(problem: &Problem, pose: &Pose) -> bool {
+    problem
+        .pts
+        .iter()
+        .all(|c| pose.transform(&c.model_m).z > tol::MIN_DEPTH_M)
+}
+
 /// Squared whitened residual of one point, `None` behind the camera.
 fn squared_residual(problem: &Problem, c: &Correspondence, pose: &Pose) -> Option<f64> {
     let px = problem.camera.project(&pose.transform(&c.model_m))?;
@@ -192,15 +200,16 @@ pub(crate) struct LmRun {
 }
 
 /// Levenberg-Marquardt from `start` over the active points. Converged when the (nearly
-/// undamped) step from the current pose is shorter than `tol::LM_STEP_CHI2` in the metric of the
-/// normal matrix, `δᵀHδ` in chi-square units: the Gauss-Newton estimate of the distance to the
-/// optimum, so the returned pose is within about 1e-4 standard deviations of it. `None` if the
-/// start puts an active point behind the camera.
+/// undamped) step from the current pose is shorter than `step_chi2` in the metric of the normal
+/// matrix, `δᵀHδ` in chi-square units: the Gauss-Newton estimate of the distance to the optimum
+/// (with `tol::LM_STEP_CHI2` the returned pose is within about 1e-4 standard deviations of it).
+/// `None` if the start puts an active point behind the camera.
 pub(crate) fn levenberg_marquardt(
     problem: &Problem,
     active: &[bool],
     loss: Loss,
     start: Pose,
+    step_chi2: f64,
 ) -> Option<LmRun> {
     let mut pose = start;
     let mut cur = accumulate(problem, active, loss, &pose)?;
@@ -209,7 +218,7 @@ pub(crate) fn levenberg_marquardt(
     while iterations < problem.gate.max_iterations {
         let step = damped_step(&cur, lambda);
         if let Some(step) = step.filter(|_| lambda <= tol::LM_INITIAL_DAMPING) {
-            if step.dot(&(cur.h * step)) <= tol::LM_STEP_CHI2 {
+            if step.dot(&(cur.h * step)) <= step_chi2 {
                 return Some(done(pose, cur, true, iterations));
             }
         }
@@ -295,12 +304,13 @@ impl Solution {
 }
 
 /// Robust refinement from one start: least squares over all points; if some point then fails the
-/// gate, a Huber stage over all points, then least squares over the gated inliers, re-gating at
-/// each new pose until the inlier set is stable (the inliers always refer to the final pose).
+/// gate, a Huber stage over all points from the same start, then least squares over the gated
+/// inliers, re-gating at each new pose until the inlier set is stable (the inliers always refer to
+/// the final pose).
 pub(crate) fn robust_solve(problem: &Problem, start: Pose, kind: PoseStart) -> Option<Solution> {
     let n = problem.pts.len();
     let mut mask = vec![true; n];
-    let first = levenberg_marquardt(problem, &mask, Loss::Squared, start)?;
+    let first = levenberg_marquardt(problem, &mask, Loss::Squared, start, tol::LM_STEP_CHI2)?;
     let mut iterations = first.iterations;
     if first.normal.max_sq <= problem.gate.threshold {
         // Every point passes: the gated cost is the chi-square itself.
@@ -317,7 +327,9 @@ pub(crate) fn robust_solve(problem: &Problem, start: Pose, kind: PoseStart) -> O
     gate_points(problem, &first.pose, &mut mask);
     mask.fill(true);
     let huber = Loss::Huber(problem.gate.huber_sigma);
-    let robust = levenberg_marquardt(problem, &mask, huber, first.pose)?;
+    // From the start, not from the least-squares pose, which the outliers have pulled.
+    // Only a basin is wanted here: a loose tolerance, and no need to have converged.
+    let robust = levenberg_marquardt(problem, &mask, huber, start, tol::HUBER_STEP_CHI2)?;
     iterations += robust.iterations;
     gate_points(problem, &robust.pose, &mut mask);
     let mut pose = robust.pose;
@@ -326,7 +338,7 @@ pub(crate) fn robust_solve(problem: &Problem, start: Pose, kind: PoseStart) -> O
         if mask.iter().filter(|&&m| m).count() < 4 {
             return None;
         }
-        let run = levenberg_marquardt(problem, &mask, Loss::Squared, pose)?;
+        let run = levenberg_marquardt(problem, &mask, Loss::Squared, pose, tol::LM_STEP_CHI2)?;
         iterations += run.iterations;
         gate_points(problem, &run.pose, &mut next_mask);
         if next_mask == mask {
