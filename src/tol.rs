@@ -169,3 +169,10 @@ pub const PNP_SUBSET_SEED: u64 = 0x6d6f_756e_7464_7269;
 /// below this (about 0.01 standard deviations); least squares over the inliers then converges to
 /// `LM_STEP_CHI2`.
 pub const HUBER_STEP_CHI2: f64 = 1e-4;
+
+/// Cost (chi-square units) of declaring a keypoint an outlier when comparing poses that keep
+/// different inliers: −2 ln of the outlier density relative to the inlier Gaussian's
+/// normalisation, 2 ln(A (1 − π) / (π 2π σ²)), which for a 1-megapixel image, σ = 1 px and an
+/// outlier rate π between 1% and 10% is 29 to 34 (MLESAC, Torr and Zisserman, CVIU 78, 2000).
+/// Above the gate threshold, so a pose does not win by gating out a point that merely fits badly.
+pub const OUTLIER_COST_CHI2: f64 = 30.0;

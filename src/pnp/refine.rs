@@ -168,17 +168,22 @@ fn squared_residual(problem: &Problem, c: &Correspondence, pose: &Pose) -> Optio
     Some(((px - c.px) * c.inv_sigma).norm_squared())
 }
 
-/// Gated cost `Σ min(|r|², τ)` over all points (a point behind the camera costs τ): the
-/// truncated-quadratic score used to compare starts and minima with different inlier sets.
+/// Gated cost: `|r|²` for each point inside the gate, `tol::OUTLIER_COST_CHI2` for each point
+/// outside it or behind the camera. It scores starts and compares minima that keep different
+/// inliers: the negative log-likelihood (×2) of a Gaussian-plus-uniform outlier mixture, as in
+/// MLESAC (Torr and Zisserman, CVIU 78, 2000).
 pub(crate) fn gated_cost(problem: &Problem, pose: &Pose) -> f64 {
-    let tau = problem.gate.threshold;
     if !pose.is_finite() {
         return f64::INFINITY;
     }
+    let tau = problem.gate.threshold;
     problem
         .pts
         .iter()
-        .map(|c| squared_residual(problem, c, pose).map_or(tau, |s| s.min(tau)))
+        .map(|c| match squared_residual(problem, c, pose) {
+            Some(s) if s <= tau => s,
+            _ => tol::OUTLIER_COST_CHI2,
+        })
         .sum()
 }
 

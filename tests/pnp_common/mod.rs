@@ -163,3 +163,4 @@ pub fn drogue_points() -> Vec<Vector3<f64>> {
     }
     pts
 }
+pub mod stress;
