@@ -207,8 +207,8 @@ impl Camera {
             let residual = d.point - target;
             let step = d
                 .jacobian
-                .lu()
-                .solve(&residual)
+                .try_inverse()
+                .map(|inv| inv * residual)
                 .ok_or(UndistortFailure::OutsideValidRadius)?;
             x -= step;
             if !x.iter().all(|c| c.is_finite()) {

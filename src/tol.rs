@@ -66,3 +66,129 @@ pub const SIM_CONTACT_RANGE_M: f64 = 1e-9;
 /// radius (pinhole) or radians off axis (fisheye). 1e-4 places the fold within 0.006° or better,
 /// far finer than any keypoint's position matters there.
 pub const SIM_FOLD_SCAN_STEP: f64 = 1e-4;
+
+/// Levenberg-Marquardt convergence: the refinement stops when the Gauss-Newton step from the
+/// current pose has length `δᵀHδ` (chi-square units) below this, i.e. the optimum is within 1e-4
+/// standard deviations, a thousandth of what the covariance can resolve.
+pub const LM_STEP_CHI2: f64 = 1e-8;
+
+/// Initial Marquardt damping, relative to the diagonal of the normal matrix. Global and warm
+/// starts are close enough that nearly undamped Gauss-Newton steps are accepted at once.
+pub const LM_INITIAL_DAMPING: f64 = 1e-3;
+
+/// Damping is multiplied by this after a rejected step (Marquardt 1963 used 10).
+pub const LM_DAMPING_UP: f64 = 10.0;
+
+/// Damping is multiplied by this after an accepted step.
+pub const LM_DAMPING_DOWN: f64 = 0.1;
+
+/// Damping never drops below this (pure Gauss-Newton for practical purposes).
+pub const LM_MIN_DAMPING: f64 = 1e-9;
+
+/// Damping above this means no step lowers the cost: the refinement stops there.
+pub const LM_MAX_DAMPING: f64 = 1e12;
+
+/// Floor for the damped diagonal, relative to its largest entry, so that an unobservable
+/// direction (zero information) still gets a finite, damped step.
+pub const LM_DIAGONAL_FLOOR: f64 = 1e-12;
+
+/// At most this many global starts are refined per frame (EPnP gives up to 3, IPPE 2).
+pub const PNP_MAX_STARTS: usize = 4;
+
+/// Observed model points whose RMS thickness off their best-fit plane is below this fraction of
+/// their RMS length are treated as exactly planar (IPPE start only; EPnP's third control point
+/// would be undetermined).
+pub const PNP_PLANAR_REL: f64 = 1e-3;
+
+/// Below this thickness-to-length ratio a point set is near-planar: both IPPE (on its best-fit
+/// plane) and EPnP starts are tried and the one with the lower cost is refined first.
+pub const PNP_NEAR_PLANAR_REL: f64 = 0.1;
+
+/// Observed model points whose RMS spread is below this times (1 + distance of their centroid
+/// from the model origin) coincide: only rounding separates them.
+pub const PNP_COINCIDENT_REL: f64 = 1e-12;
+
+/// Observed model points whose second principal extent is below this fraction of the first are
+/// collinear: the rotation about their line carries less than 1e-10 of the information of the
+/// other directions, beyond what double precision resolves after squaring.
+pub const PNP_COLLINEAR_REL: f64 = 1e-5;
+
+/// Rounds of "least squares over inliers, then re-gate at the new pose" before the inlier set
+/// is taken as it stands. One or two suffice in practice.
+pub const PNP_GATE_ROUNDS: usize = 5;
+
+/// A warm start is rejected in favour of the global start if more than 1/this of the keypoints
+/// fail the gate (a wrong basin shows up as many apparent outliers).
+pub const WARM_MAX_OUTLIER_DIVISOR: usize = 4;
+
+/// Gauss-Newton iterations on the EPnP betas. The paper's implementation uses 5; with 4 points
+/// the linearised start leaves the fourth beta at 0 and 10 let it converge to rounding (the loop
+/// stops as soon as a step vanishes).
+pub const EPNP_BETA_ITER: usize = 10;
+
+/// Two refined minima closer than this (chi-square units, `dᵀ I d` with I the information) are
+/// the same minimum, not an ambiguity.
+pub const MIRROR_SAME_CHI2: f64 = 1e-6;
+
+/// The mirror minimum is examined when the target's relief off its best-fit plane projects to
+/// fewer than this many standard deviations (always for planar targets). Beyond it the mirror
+/// fits so badly that it cannot compete (its excess cost grows as the square of the relief).
+pub const MIRROR_RELIEF_SIGMA: f64 = 30.0;
+
+/// The Gauss-Newton iteration on the EPnP betas stops once a step is below this fraction of the
+/// betas: the result is only a start for the pixel-space refinement.
+pub const EPNP_BETA_STEP_REL: f64 = 1e-12;
+
+/// EPnP's closed-form single-vector (N = 1) solution is taken as the start, without trying the
+/// N = 2 and 3 hypotheses, when its RMS error on the normalised image is within this many pixel
+/// standard deviations: the refinement cannot tell a better start from it.
+pub const EPNP_ACCEPT_SIGMA: f64 = 3.0;
+
+/// Jacobi eigen-decompositions that only feed a start (principal axes of the model points,
+/// EPnP's null space, Horn's absolute orientation) stop at this relative off-diagonal size: the
+/// directions come out accurate to about 1e-10 over their relative gap, far below what the
+/// refinement then corrects.
+pub const START_EIGEN_REL: f64 = 1e-10;
+
+/// Relative off-diagonal tolerance of the Jacobi eigen-decomposition of a Fisher information:
+/// eigenvalues accurate to about 1e-26 relative, far inside `RANK_REL_EIG`.
+pub const COVARIANCE_EIGEN_REL: f64 = 1e-13;
+
+/// Shift (relative to the trace) that keeps EPnP's reduced 4x4 matrix positive definite for the
+/// inverse iteration towards its smallest eigenvector; small enough not to move that vector.
+pub const EPNP_INVERSE_SHIFT: f64 = 1e-13;
+
+/// Inverse iterations for EPnP's null vector. The true depths are positive and alike, so the start
+/// (equal depths) is already close, and each iteration shrinks the error by the eigenvalue ratio.
+pub const EPNP_INVERSE_ITER: usize = 3;
+
+/// Iteration limit of the Newton polar decomposition (Higham's scaled iteration converges in
+/// fewer than 10 steps for any matrix a pose problem produces).
+pub const POLAR_MAX_ITER: usize = 20;
+
+/// The polar iteration stops when an update moves the (near-orthogonal) matrix by less than this
+/// per unit column.
+pub const POLAR_STEP: f64 = 1e-13;
+
+/// When the best solution from all points leaves some point outside the gate, starts from
+/// subsets (leave-one-out and random) are ranked by gated cost and this many are refined too.
+pub const PNP_SUBSET_REFINED: usize = 3;
+
+/// Random subsets tried when outliers are suspected. With 2 outliers among 16 points a random 6-point subset is clean with probability 0.375, so 20 miss
+/// every clean subset with probability 0.625^20 ≈ 1e-4.
+pub const PNP_RANDOM_SUBSETS: usize = 20;
+
+/// Fixed seed of the subset sampler, so that a frame always gets the same answer.
+pub const PNP_SUBSET_SEED: u64 = 0x6d6f_756e_7464_7269;
+
+/// The Huber stage only has to reach the right basin before the gate: it stops once its step is
+/// below this (about 0.01 standard deviations); least squares over the inliers then converges to
+/// `LM_STEP_CHI2`.
+pub const HUBER_STEP_CHI2: f64 = 1e-4;
+
+/// Cost (chi-square units) of declaring a keypoint an outlier when comparing poses that keep
+/// different inliers: −2 ln of the outlier density relative to the inlier Gaussian's
+/// normalisation, 2 ln(A (1 − π) / (π 2π σ²)), which for a 1-megapixel image, σ = 1 px and an
+/// outlier rate π between 1% and 10% is 29 to 34 (MLESAC, Torr and Zisserman, CVIU 78, 2000).
+/// Above the gate threshold, so a pose does not win by gating out a point that merely fits badly.
+pub const OUTLIER_COST_CHI2: f64 = 30.0;

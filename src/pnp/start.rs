@@ -1,0 +1,89 @@
+//! Global starts that need no prior: IPPE for (near-)planar point sets, EPnP for (near-)non-planar
+//! ones, ranked by their gated reprojection cost; and, when outliers are suspected, the same
+//! starts computed from subsets that leave them out.
+
+use rand::seq::index;
+use rand::SeedableRng;
+use rand_pcg::Pcg64Mcg;
+
+use super::pose::Pose;
+use super::prepare::{Correspondence, PointGeometry};
+use super::refine::{gated_cost, Problem};
+use super::{epnp, planar, PoseStart};
+use crate::tol;
+
+/// Starts from all points, best first by gated cost (unscored when there is only one).
+pub(crate) fn global_starts(problem: &Problem, geometry: &PointGeometry) -> Vec<(Pose, PoseStart)> {
+    let starts = starts_for(problem.pts, geometry, problem.noise_floor());
+    if starts.len() < 2 {
+        return starts;
+    }
+    ranked(problem, starts)
+}
+
+/// Planar and near-planar sets get both IPPE solutions; non-planar and near-planar sets the
+/// EPnP solution.
+fn starts_for(
+    pts: &[Correspondence],
+    geometry: &PointGeometry,
+    noise_floor: f64,
+) -> Vec<(Pose, PoseStart)> {
+    let mut starts = Vec::with_capacity(3);
+    let planarity = geometry.planarity();
+    if planarity < tol::PNP_NEAR_PLANAR_REL {
+        for p in planar::ippe_starts(pts, geometry).into_iter().flatten() {
+            starts.push((p, PoseStart::Planar));
+        }
+    }
+    if planarity >= tol::PNP_PLANAR_REL {
+        for p in epnp::epnp_starts(pts, geometry, noise_floor) {
+            starts.push((p, PoseStart::Epnp));
+        }
+    }
+    starts
+}
+
+fn ranked(problem: &Problem, starts: Vec<(Pose, PoseStart)>) -> Vec<(Pose, PoseStart)> {
+    let mut scored: Vec<(f64, Pose, PoseStart)> = starts
+        .into_iter()
+        .map(|(p, k)| (gated_cost(problem, &p), p, k))
+        .collect();
+    scored.sort_by(|a, b| a.0.total_cmp(&b.0));
+    scored.into_iter().map(|(_, p, k)| (p, k)).collect()
+}
+
+/// Starts from subsets that leave outliers out: every leave-one-out subset (one outlier cannot
+/// bias them) and, for 8 points or more, `tol::PNP_RANDOM_SUBSETS` random subsets of a third of
+/// the points (at least 6) from a fixed seed, so that several outliers are also avoided by some
+/// subset. Scored by the gated cost over all points; the best `tol::PNP_SUBSET_REFINED` returned.
+pub(crate) fn subset_starts(problem: &Problem) -> Vec<(Pose, PoseStart)> {
+    let n = problem.pts.len();
+    if n < 5 {
+        return Vec::new();
+    }
+    let noise_floor = problem.noise_floor();
+    let mut subset: Vec<Correspondence> = Vec::with_capacity(n);
+    let mut starts = Vec::with_capacity(2 * n + 2 * tol::PNP_RANDOM_SUBSETS);
+    let mut add = |keep: &mut dyn Iterator<Item = usize>, subset: &mut Vec<Correspondence>| {
+        subset.clear();
+        subset.extend(keep.map(|i| problem.pts[i]));
+        let geometry = PointGeometry::of(subset.iter().map(|c| c.model_m));
+        if geometry.check().is_ok() {
+            starts.extend(starts_for(subset, &geometry, noise_floor));
+        }
+    };
+    for skip in 0..n {
+        add(&mut (0..n).filter(|&i| i != skip), &mut subset);
+    }
+    if n >= 8 {
+        let size = (n / 3).max(6);
+        let mut rng = Pcg64Mcg::seed_from_u64(tol::PNP_SUBSET_SEED);
+        for _ in 0..tol::PNP_RANDOM_SUBSETS {
+            let picked = index::sample(&mut rng, n, size);
+            add(&mut picked.into_iter(), &mut subset);
+        }
+    }
+    let mut out = ranked(problem, starts);
+    out.truncate(tol::PNP_SUBSET_REFINED);
+    out
+}
