@@ -1,0 +1,1 @@
+//! consistency (being written).

@@ -1,0 +1,1 @@
+//! drift (being written).

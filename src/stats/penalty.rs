@@ -1,0 +1,1 @@
+//! penalty (being written).

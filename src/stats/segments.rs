@@ -1,0 +1,1 @@
+//! segments (being written).
