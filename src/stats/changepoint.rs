@@ -78,10 +78,57 @@ fn backtrack(last: &[usize], n: usize) -> Vec<usize> {
     ends
 }
 
-struct Candidate {
-    start: usize,
-    /// First segment end at which this start can no longer be optimal.
-    retired_from: usize,
+/// The live candidate last change points of PELT, struct-of-arrays for a tight inner loop.
+#[derive(Default)]
+struct Candidates {
+    starts: Vec<usize>,
+    /// `F(start)`, copied next to the start for locality.
+    base: Vec<f64>,
+    /// First segment end from which the start can no longer be optimal (`usize::MAX`: never).
+    retired_from: Vec<usize>,
+    totals: Vec<f64>,
+}
+
+impl Candidates {
+    fn push(&mut self, start: usize, base: f64) {
+        self.starts.push(start);
+        self.base.push(base);
+        self.retired_from.push(usize::MAX);
+        self.totals.push(0.0);
+    }
+
+    /// Evaluates `F(t) + C(t, end) + β` for every candidate; returns the first minimum.
+    fn evaluate<C: SegmentCost>(&mut self, cost: &C, end: usize, penalty: f64) -> (f64, usize) {
+        let (mut min_total, mut argmin) = (f64::INFINITY, 0);
+        for ((&start, &base), total) in self.starts.iter().zip(&self.base).zip(&mut self.totals) {
+            *total = base + cost.cost(start, end) + penalty;
+            if *total < min_total {
+                (min_total, argmin) = (*total, start);
+            }
+        }
+        (min_total, argmin)
+    }
+
+    /// Marks the starts with `F(t) + C(t, end) > F(end)` as retired from `end + min_size` and
+    /// drops those already retired at `end + 1`.
+    fn prune(&mut self, limit: f64, end: usize, min_size: usize) {
+        let mut kept = 0;
+        for i in 0..self.starts.len() {
+            if self.totals[i] > limit && self.retired_from[i] == usize::MAX {
+                self.retired_from[i] = end + min_size;
+            }
+            if self.retired_from[i] > end + 1 {
+                self.starts[kept] = self.starts[i];
+                self.base[kept] = self.base[i];
+                self.retired_from[kept] = self.retired_from[i];
+                kept += 1;
+            }
+        }
+        self.starts.truncate(kept);
+        self.base.truncate(kept);
+        self.retired_from.truncate(kept);
+        self.totals.truncate(kept);
+    }
 }
 
 /// Exact PELT with the `K = 0` pruning rule and a minimum segment length.
@@ -93,6 +140,12 @@ struct Candidate {
 /// from `s + min_size` on. (It stays a candidate for the ends in between, where a segment
 /// `s..s'` would be too short; retiring it at once is not exact when `min_size > 1`.) Ties go to
 /// the earliest `t`.
+///
+/// Cost: the rule discards the starts before a change point soon after it, but inside a
+/// homogeneous stretch that began at `c` no start `t` is ever discarded (a split never raises the
+/// cost, so `F(t) + C(t, s) <= F(c) + C(c, s)`), so the work is O(n · L) cost evaluations for a
+/// longest segment of L samples: linear when change points are dense, quadratic for a series
+/// without any (Killick et al. 2012 state the same worst case).
 pub fn pelt<C: SegmentCost>(
     cost: &C,
     penalty: f64,
@@ -103,32 +156,16 @@ pub fn pelt<C: SegmentCost>(
     let mut best = vec![f64::INFINITY; n + 1];
     let mut last = vec![0usize; n + 1];
     best[0] = 0.0;
-    let mut candidates: Vec<Candidate> = Vec::new();
+    let mut candidates = Candidates::default();
     for end in min_size..=n {
         let start = end - min_size;
         if best[start].is_finite() {
-            candidates.push(Candidate {
-                start,
-                retired_from: usize::MAX,
-            });
+            candidates.push(start, best[start]);
         }
-        let mut totals = Vec::with_capacity(candidates.len());
-        let (mut min_total, mut argmin) = (f64::INFINITY, 0);
-        for c in &candidates {
-            let total = best[c.start] + cost.cost(c.start, end) + penalty;
-            if total < min_total {
-                (min_total, argmin) = (total, c.start);
-            }
-            totals.push(total);
-        }
+        let (min_total, argmin) = candidates.evaluate(cost, end, penalty);
         best[end] = min_total;
         last[end] = argmin;
-        for (c, total) in candidates.iter_mut().zip(totals) {
-            if total > min_total + penalty && c.retired_from == usize::MAX {
-                c.retired_from = end + min_size;
-            }
-        }
-        candidates.retain(|c| c.retired_from > end + 1);
+        candidates.prune(min_total + penalty, end, min_size);
     }
     Ok(Segmentation {
         breakpoints: backtrack(&last, n),
