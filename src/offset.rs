@@ -11,6 +11,8 @@ use nalgebra::{Isometry3, Matrix3, Matrix6, Vector3, Vector6};
 use crate::geometry::{optical_in_boresight, skew, Mount, MountDeviation};
 use crate::pnp::PoseEstimate;
 
+pub mod frames;
+
 /// Millimetres per metre, degrees per radian: the report units of a deviation 6-vector.
 const MM_PER_M: f64 = 1000.0;
 
@@ -171,15 +173,7 @@ mod tests {
 
     fn probe_estimate(pose: Isometry3<f64>) -> PoseEstimate {
         let info = Matrix6::from_diagonal(&Vector6::new(4e4, 3e4, 2e4, 5e5, 6e5, 1e5));
-        PoseEstimate {
-            pose,
-            information: info,
-            covariance: info.try_inverse().unwrap(),
-            rank: 6,
-            chi2: 0.0,
-            dof: 10,
-            inliers: vec![true; 8],
-        }
+        PoseEstimate::from_information(pose, info, 0.5, 0.0, vec![true; 8])
     }
 
     #[test]

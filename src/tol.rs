@@ -192,3 +192,33 @@ pub const HUBER_STEP_CHI2: f64 = 1e-4;
 /// outlier rate π between 1% and 10% is 29 to 34 (MLESAC, Torr and Zisserman, CVIU 78, 2000).
 /// Above the gate threshold, so a pose does not win by gating out a point that merely fits badly.
 pub const OUTLIER_COST_CHI2: f64 = 30.0;
+
+/// Relative convergence of an upper-tail quantile solved on the survival function: 1e-14 is two
+/// orders above double-precision rounding, the same accuracy statrs targets for its own quantiles.
+pub const QUANTILE_REL: f64 = 1e-14;
+
+/// A covariance eigenvalue below this fraction of the largest is an unobservable direction (the
+/// pose solver's pseudo-inverse leaves an exact zero there, about 1e-16 after rounding), while an
+/// observable direction of an information matrix just above `RANK_REL_EIG` (condition number up
+/// to 1e9) still sits three orders of magnitude above it.
+pub const COVARIANCE_RANK_REL: f64 = 1e-12;
+
+/// A covariance may be asymmetric or have negative eigenvalues only by rounding: relative to its
+/// largest entry or eigenvalue, more than this means the input is not a covariance at all.
+pub const COVARIANCE_ASYMMETRY_REL: f64 = 1e-9;
+
+/// Eigenvalues of a sum of information matrices below this fraction of the largest are treated
+/// as zero (pseudo-inverse). Sums of rank-deficient matrices carry rounding of about 1e-16 times
+/// their norm in the null directions; 1e-10 leaves a margin while keeping condition numbers of
+/// 1e9 (the per-frame limit `RANK_REL_EIG`) observable.
+pub const INFORMATION_SUM_RANK_REL: f64 = 1e-10;
+
+/// An axis counts as observable in a segment when at most this fraction of its unit vector lies
+/// outside the range of the segment's information matrix; otherwise its estimate and interval do
+/// not exist (the direction is unobservable and any number would be arbitrary).
+pub const AXIS_OBSERVABLE_RESIDUAL: f64 = 1e-6;
+
+/// Two information matrices closer than this (relative Frobenius norm) are the same matrix, which
+/// lets the change-point search use the plain squared-error cost after one common whitening
+/// (identical in exact arithmetic; the difference is rounding).
+pub const COMMON_INFORMATION_REL: f64 = 1e-9;

@@ -56,10 +56,11 @@ pub struct FrameRecord {
     pub drogue: Result<Fit, RejectionReason>,
     /// The observed mount (from the probe solution).
     pub observed_mount: Option<Mount>,
-    /// Deviation from the reference mount in report units (mm, deg) and its information
-    /// (rank-aware); present when the probe was solved.
+    /// Deviation from the reference mount in report units (mm, deg) and its covariance
+    /// (singular where the probe solution leaves a direction unobservable); present when the
+    /// probe was solved.
     pub deviation: Option<Vector6<f64>>,
-    pub deviation_information: Option<Matrix6<f64>>,
+    pub deviation_covariance: Option<Matrix6<f64>>,
     /// The drogue reference point in the camera frame (m); present when the drogue was solved.
     pub drogue_camera_m: Option<Vector3<f64>>,
     /// The probe reference point in body axes (m), constant; kept so records stand alone.
@@ -144,7 +145,7 @@ impl FrameSolver<'_> {
             drogue: fit_or_reason(&drogue),
             observed_mount: probe.estimate().map(|e| observed_mount(&e.pose)),
             deviation: deviation.as_ref().map(|d| d.value),
-            deviation_information: deviation.map(|d| d.information),
+            deviation_covariance: deviation.map(|d| d.covariance),
             drogue_camera_m,
             probe_reference_b: self.probe.reference_point(),
         }

@@ -1,1 +1,0 @@
-//! stats (being written).

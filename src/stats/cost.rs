@@ -1,0 +1,341 @@
+//! Segment costs evaluated in O(d) or O(d³) time from prefix sums, for the change-point search.
+//!
+//! A cost `C(start, end)` is the negative log-likelihood (up to constants, times 2) of the samples
+//! `start..end` under one constant mean. Both costs here never increase when a segment is split,
+//! which is what makes PELT's pruning with `K = 0` exact (Killick et al. 2012, section 3).
+
+use nalgebra::{Cholesky, Matrix6, Vector6};
+
+use super::information::information_sum_spectrum;
+use super::StatsError;
+
+/// A segment cost over a fixed series of `n_samples()` samples.
+pub trait SegmentCost {
+    /// Number of samples in the series.
+    fn n_samples(&self) -> usize;
+
+    /// The cost of the samples `start..end` (`start < end <= n_samples()`).
+    fn cost(&self, start: usize, end: usize) -> f64;
+}
+
+/// Sum of squared deviations from the segment mean over all columns, as the Python package
+/// ruptures' `CostL2`: `C = Σ_i ‖x_i − x̄‖²` = `(end − start) · Σ_features var(x[start..end])`.
+///
+/// Evaluated as `Σ‖x‖² − ‖Σx‖²/m` from prefix sums of the column-centred data (centring keeps
+/// the subtraction well conditioned when the data sit far from zero). Up to seven columns the
+/// prefix sums of one sample fill one 64-byte row, so an evaluation is two row loads and a few
+/// vector operations.
+#[derive(Debug, Clone)]
+pub struct L2Cost {
+    n: usize,
+    dim: usize,
+    layout: Layout,
+}
+
+#[derive(Debug, Clone)]
+enum Layout {
+    /// Columns `0..dim` hold the prefix sums, column 7 the prefix sum of squares (dim <= 7).
+    Packed(Vec<[f64; 8]>),
+    /// Rows of `dim` prefix sums followed by the prefix sum of squares.
+    Wide(Vec<f64>),
+}
+
+const PACKED_COLUMNS: usize = 7;
+
+impl L2Cost {
+    /// Builds the cost of a row-major signal with `dim` columns (`signal.len() = n · dim`).
+    pub fn new(signal: &[f64], dim: usize) -> Result<Self, StatsError> {
+        if dim == 0 || !signal.len().is_multiple_of(dim) {
+            return Err(StatsError::InvalidParameter {
+                name: "signal columns",
+                value: dim as f64,
+                expected: "a positive number that divides the signal length",
+            });
+        }
+        if let Some(index) = signal.iter().position(|v| !v.is_finite()) {
+            return Err(StatsError::NonFinite {
+                index: index / dim,
+                what: "signal value",
+            });
+        }
+        let n = signal.len() / dim;
+        let rows = centred_prefix_rows(signal, dim);
+        let layout = if dim <= PACKED_COLUMNS {
+            Layout::Packed(
+                rows.chunks_exact(dim + 1)
+                    .map(|r| {
+                        let mut packed = [0.0; 8];
+                        packed[..dim].copy_from_slice(&r[..dim]);
+                        packed[PACKED_COLUMNS] = r[dim];
+                        packed
+                    })
+                    .collect(),
+            )
+        } else {
+            Layout::Wide(rows)
+        };
+        Ok(Self { n, dim, layout })
+    }
+
+    /// Builds the cost of a series of 6-vectors.
+    pub fn from_vectors(rows: &[Vector6<f64>]) -> Result<Self, StatsError> {
+        let flat: Vec<f64> = rows.iter().flat_map(|r| r.iter().copied()).collect();
+        Self::new(&flat, 6)
+    }
+
+    /// Number of columns.
+    pub fn dim(&self) -> usize {
+        self.dim
+    }
+}
+
+/// Prefix sums of the column-centred signal: `n + 1` rows of `dim` sums and the sum of squares.
+fn centred_prefix_rows(signal: &[f64], dim: usize) -> Vec<f64> {
+    let n = signal.len() / dim;
+    let mut means = vec![0.0; dim];
+    for row in signal.chunks_exact(dim) {
+        means.iter_mut().zip(row).for_each(|(m, v)| *m += v);
+    }
+    means.iter_mut().for_each(|m| *m /= n.max(1) as f64);
+    let stride = dim + 1;
+    let mut rows = vec![0.0; (n + 1) * stride];
+    for (i, row) in signal.chunks_exact(dim).enumerate() {
+        let (done, next) = rows.split_at_mut((i + 1) * stride);
+        let prev = &done[i * stride..];
+        let mut square = prev[dim];
+        for j in 0..dim {
+            let centred = row[j] - means[j];
+            next[j] = prev[j] + centred;
+            square += centred * centred;
+        }
+        next[dim] = square;
+    }
+    rows
+}
+
+impl SegmentCost for L2Cost {
+    fn n_samples(&self) -> usize {
+        self.n
+    }
+
+    #[inline]
+    fn cost(&self, start: usize, end: usize) -> f64 {
+        let len = end - start;
+        if len <= 1 {
+            // A single sample is its own mean: exactly zero, as ruptures computes it.
+            return 0.0;
+        }
+        let (between, squares) = match &self.layout {
+            Layout::Packed(rows) => {
+                let (lo, hi) = (&rows[start], &rows[end]);
+                let mut between = 0.0;
+                for j in 0..PACKED_COLUMNS {
+                    let s = hi[j] - lo[j];
+                    between += s * s;
+                }
+                (between, hi[PACKED_COLUMNS] - lo[PACKED_COLUMNS])
+            }
+            Layout::Wide(rows) => {
+                let stride = self.dim + 1;
+                let lo = &rows[start * stride..(start + 1) * stride];
+                let hi = &rows[end * stride..(end + 1) * stride];
+                let between = (0..self.dim)
+                    .map(|j| (hi[j] - lo[j]) * (hi[j] - lo[j]))
+                    .sum();
+                (between, hi[self.dim] - lo[self.dim])
+            }
+        };
+        (squares - between / len as f64).max(0.0)
+    }
+}
+
+/// The [`L2Cost`] evaluated in numpy's floating-point order, as ruptures 1.1.10 computes it:
+/// `x[start..end].var(axis=0).sum() * (end − start)`.
+///
+/// Mathematically equal to [`L2Cost`]; it exists because segmentations can tie exactly (data on
+/// a grid such as multiples of 0.1), and then rounding decides which one ruptures reports. To
+/// reproduce ruptures bit for bit the sums follow numpy 2: a one-column reduction uses numpy's
+/// pairwise summation, a multi-column reduction over axis 0 adds rows in order, and the variance
+/// is `Σ(x − Σx/m)²/m`. Each evaluation is O(m·d); use [`L2Cost`] for real work.
+#[derive(Debug, Clone)]
+pub struct NumpyOrderL2Cost {
+    dim: usize,
+    signal: Vec<f64>,
+}
+
+impl NumpyOrderL2Cost {
+    /// Builds the cost of a row-major signal with `dim` columns.
+    pub fn new(signal: &[f64], dim: usize) -> Result<Self, StatsError> {
+        L2Cost::new(signal, dim)?;
+        Ok(Self {
+            dim,
+            signal: signal.to_vec(),
+        })
+    }
+
+    fn column(&self, start: usize, end: usize, j: usize) -> impl Iterator<Item = f64> + '_ {
+        (start..end).map(move |i| self.signal[i * self.dim + j])
+    }
+
+    /// numpy's sum over axis 0 of one column of `start..end`.
+    fn axis0_sum(&self, values: impl Iterator<Item = f64>) -> f64 {
+        if self.dim == 1 {
+            numpy_pairwise_sum(&values.collect::<Vec<_>>())
+        } else {
+            values.fold(0.0, |acc, v| acc + v)
+        }
+    }
+}
+
+impl SegmentCost for NumpyOrderL2Cost {
+    fn n_samples(&self) -> usize {
+        self.signal.len() / self.dim
+    }
+
+    fn cost(&self, start: usize, end: usize) -> f64 {
+        let m = (end - start) as f64;
+        let variances: Vec<f64> = (0..self.dim)
+            .map(|j| {
+                let mean = self.axis0_sum(self.column(start, end, j)) / m;
+                let squares = self.column(start, end, j).map(|v| (v - mean) * (v - mean));
+                self.axis0_sum(squares) / m
+            })
+            .collect();
+        numpy_pairwise_sum(&variances) * m
+    }
+}
+
+/// numpy's pairwise summation of a contiguous double array (`pairwise_sum_DOUBLE`, block size
+/// 128, eight accumulators), started from the additive identity 0 as `np.add.reduce` does.
+pub fn numpy_pairwise_sum(values: &[f64]) -> f64 {
+    0.0 + pairwise_block(values)
+}
+
+fn pairwise_block(a: &[f64]) -> f64 {
+    let n = a.len();
+    if n < 8 {
+        a.iter().fold(0.0, |acc, v| acc + v)
+    } else if n <= 128 {
+        let mut r = [0.0; 8];
+        r.copy_from_slice(&a[..8]);
+        let full = n - n % 8;
+        for chunk in a[8..full].chunks_exact(8) {
+            r.iter_mut().zip(chunk).for_each(|(acc, v)| *acc += v);
+        }
+        let head = ((r[0] + r[1]) + (r[2] + r[3])) + ((r[4] + r[5]) + (r[6] + r[7]));
+        a[full..].iter().fold(head, |acc, v| acc + v)
+    } else {
+        let half = n / 2;
+        let split = half - half % 8;
+        pairwise_block(&a[..split]) + pairwise_block(&a[split..])
+    }
+}
+
+/// Information-weighted Gaussian cost `C = Σ_i (y_i − μ)ᵀ Ω_i (y_i − μ)` with the weighted mean
+/// `μ = (Σ Ω_i)⁺ Σ Ω_i y_i`, i.e. `C = Σ y_iᵀΩ_i y_i − bᵀ A⁺ b` with `A = Σ Ω_i`, `b = Σ Ω_i y_i`.
+///
+/// Prefix sums of `Ω_i` (21 distinct entries), `Ω_i y_i` and `y_iᵀ Ω_i y_i` give each segment's
+/// sums in O(d²); the quadratic form takes one 6x6 Cholesky factorisation, or the eigen
+/// pseudo-inverse when a segment's information is singular (a direction unobserved in all of
+/// its frames), so an unobservable direction adds neither cost nor degrees of freedom.
+#[derive(Debug, Clone)]
+pub struct InformationCost {
+    n: usize,
+    info_sums: Vec<[f64; 21]>,
+    weighted_sums: Vec<Vector6<f64>>,
+    square_sums: Vec<f64>,
+    padding: Matrix6<f64>,
+}
+
+const UPPER: [(usize, usize); 21] = {
+    let mut pairs = [(0, 0); 21];
+    let mut k = 0;
+    let mut i = 0;
+    while i < 6 {
+        let mut j = i;
+        while j < 6 {
+            pairs[k] = (i, j);
+            k += 1;
+            j += 1;
+        }
+        i += 1;
+    }
+    pairs
+};
+
+impl InformationCost {
+    /// Builds the cost of samples `y` with information matrices `omega`. Coordinates at or
+    /// beyond `active_dim` must be zero in every `y_i` and `Ω_i` (a reduced common frame padded to
+    /// six); they are ignored.
+    pub fn new(
+        y: &[Vector6<f64>],
+        omega: &[Matrix6<f64>],
+        active_dim: usize,
+    ) -> Result<Self, StatsError> {
+        if y.len() != omega.len() {
+            return Err(StatsError::LengthMismatch {
+                what: "samples and information matrices",
+                left: y.len(),
+                right: omega.len(),
+            });
+        }
+        let n = y.len();
+        let mut info_sums = vec![[0.0; 21]; n + 1];
+        let mut weighted_sums = vec![Vector6::zeros(); n + 1];
+        let mut square_sums = vec![0.0; n + 1];
+        for (i, (yi, wi)) in y.iter().zip(omega).enumerate() {
+            let wy = wi * yi;
+            for (k, &(r, c)) in UPPER.iter().enumerate() {
+                info_sums[i + 1][k] = info_sums[i][k] + wi[(r, c)];
+            }
+            weighted_sums[i + 1] = weighted_sums[i] + wy;
+            square_sums[i + 1] = square_sums[i] + yi.dot(&wy);
+        }
+        let padding = Matrix6::from_fn(|r, c| if r == c && r >= active_dim { 1.0 } else { 0.0 });
+        Ok(Self {
+            n,
+            info_sums,
+            weighted_sums,
+            square_sums,
+            padding,
+        })
+    }
+
+    /// The sums `(A, b, q)` = `(Σ Ω_i, Σ Ω_i y_i, Σ y_iᵀ Ω_i y_i)` over `start..end`.
+    pub fn segment_sums(&self, start: usize, end: usize) -> (Matrix6<f64>, Vector6<f64>, f64) {
+        let (lo, hi) = (&self.info_sums[start], &self.info_sums[end]);
+        let mut a = Matrix6::zeros();
+        for (k, &(r, c)) in UPPER.iter().enumerate() {
+            let v = hi[k] - lo[k];
+            a[(r, c)] = v;
+            a[(c, r)] = v;
+        }
+        let b = self.weighted_sums[end] - self.weighted_sums[start];
+        (a, b, self.square_sums[end] - self.square_sums[start])
+    }
+}
+
+impl SegmentCost for InformationCost {
+    fn n_samples(&self) -> usize {
+        self.n
+    }
+
+    fn cost(&self, start: usize, end: usize) -> f64 {
+        let (a, b, q) = self.segment_sums(start, end);
+        let explained = match Cholesky::new(a + self.padding) {
+            Some(chol) if well_conditioned(&chol) => chol.l().solve_lower_triangular(&b),
+            _ => None,
+        }
+        .map(|v| v.norm_squared())
+        .unwrap_or_else(|| b.dot(&(information_sum_spectrum(&a).pseudo_inverse() * b)));
+        (q - explained).max(0.0)
+    }
+}
+
+/// A Cholesky factor whose smallest pivot is not negligible against the largest: otherwise the
+/// matrix is singular up to rounding and the pseudo-inverse must be used instead.
+fn well_conditioned(chol: &Cholesky<f64, nalgebra::U6>) -> bool {
+    let diag = chol.l_dirty().diagonal();
+    let (lo, hi) = (diag.min(), diag.max());
+    lo * lo > crate::tol::INFORMATION_SUM_RANK_REL * hi * hi
+}

@@ -1,0 +1,1 @@
+//! multivariate (being written).

@@ -1,0 +1,300 @@
+//! The effective noise of a whitened deviation series, estimated from the data.
+//!
+//! The per-frame covariance describes white detection noise. Real series also carry
+//! frame-to-frame correlated detection errors and genuine mount vibration, so the scatter of a
+//! segment mean is larger than the covariance predicts, by a factor that depends on the time
+//! scale. A change-point test compares the means of adjacent segments, so the relevant quantity
+//! at scale `τ` is the covariance of the difference of two adjacent `τ`-sample means, scaled so
+//! that white noise with the predicted covariance gives the identity:
+//!
+//! `G(τ) = (τ/2) · E[Δ_t Δ_tᵀ]`, `Δ_t = mean(z[t..t+τ]) − mean(z[t−τ..t])`.
+//!
+//! This is the overlapping Allan variance (IEEE Std 1139-2008; Allan 1966) in matrix form. For
+//! white noise `G(τ) = I` at every scale; for AR(1) noise with coefficient ρ it grows towards the
+//! long-run variance ratio `(1+ρ)/(1−ρ)`; for a vibration of period P it peaks near `τ ≈ P/2`.
+//! The inflation used by the tests is, per principal direction `u_j` of the pooled `G`, the
+//! largest `u_jᵀ G(τ) u_j` over the scales from the minimum segment length up to a fraction of
+//! the series, floored at 1 (the predicted covariance is never made smaller):
+//! `Γ = U diag(κ_j) Uᵀ`, `κ_j = max(1, max_τ u_jᵀ G(τ) u_j)`.
+//! Windows are taken inside given segments only, so known mean shifts do not inflate it.
+//!
+//! The same pass measures the lag-1 autocorrelation of each principal direction from a robust
+//! semivariogram: the penalty calibration simulates AR(1) noise with that coefficient so that the
+//! estimation error of `Γ` under correlated noise is accounted for (`penalty` module).
+
+use nalgebra::{Matrix6, Vector6};
+
+use super::information::Spectrum;
+
+/// Which scales the inflation is estimated at.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct NoiseScales {
+    /// Smallest scale (samples): the minimum segment length of the change-point search.
+    pub min_scale: usize,
+    /// Largest scale as a fraction of the number of samples (longer windows are too few to
+    /// estimate anything; larger scales reuse the largest estimate).
+    pub max_scale_fraction: f64,
+}
+
+impl NoiseScales {
+    /// The default grid for a minimum segment length: from it up to one eighth of the series.
+    pub fn for_min_size(min_size: usize) -> Self {
+        Self {
+            min_scale: min_size.max(1),
+            max_scale_fraction: 0.0625,
+        }
+    }
+
+    /// Scales from `min_scale` upward by factors of about √2 up to `max_scale_fraction · n`
+    /// (at least the smallest scale when the series holds two windows of it).
+    pub fn grid(&self, n: usize) -> Vec<usize> {
+        let top = ((n as f64 * self.max_scale_fraction).floor() as usize).max(self.min_scale);
+        let mut scales = Vec::new();
+        let mut tau = self.min_scale.max(1);
+        while tau <= top && 2 * tau <= n {
+            scales.push(tau);
+            tau *= 2;
+        }
+        scales
+    }
+}
+
+/// The effective-noise inflation of a whitened series and how it was obtained.
+#[derive(Debug, Clone, PartialEq)]
+pub struct EffectiveNoise {
+    /// `Γ`: the covariance of the whitened noise at the scales that matter (identity when the
+    /// predicted covariance explains the scatter). Used by the change-point search, whose
+    /// penalty is calibrated for exactly this estimator.
+    pub inflation: Matrix6<f64>,
+    /// `Γ_∞`: `Γ` with each direction raised to the long-run variance its AR(1) coefficient
+    /// implies beyond the largest scale examined (`κ_j · G(∞)/G(τ_max)`); used for the intervals
+    /// of segment means, which average over more samples than any window.
+    pub long_run_inflation: Matrix6<f64>,
+    /// Principal directions `u_j` (columns) in the whitened coordinates.
+    pub directions: Matrix6<f64>,
+    /// `κ_j >= 1` per direction; zero for inactive coordinates.
+    pub factors: Vector6<f64>,
+    /// The scales (samples) at which each `κ_j` was attained; zero where the floor of 1 applied.
+    pub scale_of_max: [usize; 6],
+    /// The scales examined.
+    pub scales: Vec<usize>,
+    /// Number of windows at the smallest scale (how much data the estimate rests on).
+    pub windows: usize,
+    /// Largest lag-1 autocorrelation over the principal directions (0 when unknown).
+    pub lag1_autocorrelation: f64,
+    /// The same plus its small-sample bias `(1+3ρ)/N` (Kendall 1954; `N` lag-1 pairs), the
+    /// value the penalty calibration uses.
+    pub lag1_upper: f64,
+}
+
+impl EffectiveNoise {
+    /// No inflation: the predicted covariance is taken as it is.
+    pub fn identity(dim: usize) -> Self {
+        let factors = Vector6::from_fn(|i, _| if i < dim { 1.0 } else { 0.0 });
+        Self {
+            inflation: Matrix6::from_diagonal(&factors),
+            long_run_inflation: Matrix6::from_diagonal(&factors),
+            directions: Matrix6::identity(),
+            factors,
+            scale_of_max: [0; 6],
+            scales: Vec::new(),
+            windows: 0,
+            lag1_autocorrelation: 0.0,
+            lag1_upper: 0.0,
+        }
+    }
+
+    /// The largest factor: how many times the predicted variance the worst direction scatters.
+    pub fn max_factor(&self) -> f64 {
+        self.factors.max()
+    }
+
+    /// `Γ^{-1/2}`, the matrix that maps whitened samples to samples whose effective noise is
+    /// white with unit variance.
+    pub fn inverse_sqrt(&self) -> Matrix6<f64> {
+        Spectrum::new(&self.inflation, 0.0).inverse_sqrt()
+    }
+}
+
+/// Prefix sums of a vector series, for window means in O(1).
+struct PrefixSums(Vec<Vector6<f64>>);
+
+impl PrefixSums {
+    fn new(z: &[Vector6<f64>]) -> Self {
+        let mut sums = Vec::with_capacity(z.len() + 1);
+        sums.push(Vector6::zeros());
+        for v in z {
+            let next = sums[sums.len() - 1] + v;
+            sums.push(next);
+        }
+        Self(sums)
+    }
+
+    fn window_mean(&self, start: usize, len: usize) -> Vector6<f64> {
+        (self.0[start + len] - self.0[start]) / len as f64
+    }
+}
+
+/// `G(τ)` from all windows `t−τ..t+τ` that lie inside one of `segments`, and their count.
+fn scaled_allan(
+    sums: &PrefixSums,
+    segments: &[(usize, usize)],
+    tau: usize,
+) -> (Matrix6<f64>, usize) {
+    let mut acc = Matrix6::zeros();
+    let mut count = 0;
+    for &(start, end) in segments {
+        if end - start < 2 * tau {
+            continue;
+        }
+        for t in start + tau..=end - tau {
+            let delta = sums.window_mean(t, tau) - sums.window_mean(t - tau, tau);
+            acc += delta * delta.transpose();
+            count += 1;
+        }
+    }
+    if count > 0 {
+        acc *= tau as f64 / (2.0 * count as f64);
+    }
+    (acc, count)
+}
+
+/// Estimates the effective-noise inflation `Γ` of the whitened series `z` (active coordinates
+/// `0..dim`), using windows inside `segments` (sample ranges believed free of mean shifts; frames
+/// to be left out, such as frames with a rank-deficient information, split the segments).
+pub fn estimate_effective_noise(
+    z: &[Vector6<f64>],
+    dim: usize,
+    segments: &[(usize, usize)],
+    scales: &NoiseScales,
+) -> EffectiveNoise {
+    let sums = PrefixSums::new(z);
+    let longest = segments.iter().map(|(a, b)| b - a).max().unwrap_or(0);
+    let grid: Vec<usize> = scales
+        .grid(z.len())
+        .into_iter()
+        .filter(|&t| 2 * t <= longest)
+        .collect();
+    let estimates: Vec<(usize, Matrix6<f64>, usize)> = grid
+        .iter()
+        .map(|&tau| {
+            let (g, count) = scaled_allan(&sums, segments, tau);
+            (tau, g, count)
+        })
+        .filter(|(_, _, count)| *count > 0)
+        .collect();
+    if estimates.is_empty() {
+        return EffectiveNoise::identity(dim);
+    }
+    let pooled = estimates.iter().map(|(_, g, _)| g).sum::<Matrix6<f64>>() / estimates.len() as f64;
+    let directions = Spectrum::new(&pooled, 0.0).vectors;
+    let mut factors = Vector6::zeros();
+    let mut scale_of_max = [0; 6];
+    for j in 0..6 {
+        let u = directions.column(j);
+        if u.rows(dim, 6 - dim).norm() > 0.5 {
+            continue; // an inactive coordinate (zero in every sample)
+        }
+        factors[j] = 1.0;
+        for (tau, g, _) in &estimates {
+            let k = u.dot(&(g * u));
+            if k > factors[j] {
+                factors[j] = k;
+                scale_of_max[j] = *tau;
+            }
+        }
+    }
+    let inflation = directions * Matrix6::from_diagonal(&factors) * directions.transpose();
+    let far_lag = (4 * scales.min_scale).min(z.len() / 4).max(2);
+    let lag1 = lag1_per_direction(z, segments, &directions, &factors, far_lag);
+    let pairs: usize = segments
+        .iter()
+        .map(|(a, b)| (b - a).saturating_sub(1))
+        .sum();
+    let bias = |rho: f64| (1.0 + 3.0 * rho) / pairs.max(1) as f64;
+    let lag1_autocorrelation = lag1.max();
+    let (top_scale, top, _) = estimates[estimates.len() - 1];
+    let long_run = Vector6::from_fn(|j, _| {
+        let at_top = directions.column(j).dot(&(top * directions.column(j)));
+        let extrapolated = at_top * ar1_long_run_ratio(lag1[j], top_scale);
+        factors[j].max(extrapolated)
+    });
+    EffectiveNoise {
+        inflation,
+        long_run_inflation: directions * Matrix6::from_diagonal(&long_run) * directions.transpose(),
+        directions,
+        factors,
+        scale_of_max,
+        scales: estimates.iter().map(|(t, _, _)| *t).collect(),
+        windows: estimates[0].2,
+        lag1_autocorrelation,
+        lag1_upper: (lag1_autocorrelation + bias(lag1_autocorrelation)).min(1.0),
+    }
+}
+
+/// `G(∞)/G(τ)` for AR(1) noise with coefficient ρ: how much of the long-run variance
+/// `(1+ρ)/(1−ρ)` the scaled Allan variance at scale τ still misses. From the autocovariance
+/// `ρ^|k|`: `G(τ) = (τ/2)(2 Var(mean_τ) − 2 Cov(adjacent means))`.
+pub fn ar1_long_run_ratio(rho: f64, tau: usize) -> f64 {
+    if rho <= 0.0 || tau == 0 {
+        return 1.0;
+    }
+    let t = tau as f64;
+    let var_mean: f64 = (1..tau)
+        .map(|k| 2.0 * (t - k as f64) * rho.powi(k as i32))
+        .sum::<f64>()
+        + t;
+    let cov_adjacent: f64 = (1..2 * tau)
+        .map(|k| k.min(2 * tau - k) as f64 * rho.powi(k as i32))
+        .sum();
+    let allan = (t / 2.0) * 2.0 * (var_mean - cov_adjacent) / (t * t);
+    let long_run = (1.0 + rho) / (1.0 - rho).max(f64::EPSILON);
+    (long_run / allan).max(1.0)
+}
+
+/// Median of a chi-square variable with one degree of freedom: the robust variogram below
+/// divides by it so that it estimates `E[(z_{t+k} − z_t)²]/2` for Gaussian increments.
+const CHI2_1_MEDIAN: f64 = 0.454_936_423_119_572_8;
+
+/// Robust semivariogram `D(k) = median((u_{t+k} − u_t)²)/(2 · 0.4549)` of one direction over
+/// pairs inside the segments (a median, so that the few pairs straddling an unknown mean shift
+/// do not move it). `None` without pairs.
+fn robust_semivariogram(u: &[f64], segments: &[(usize, usize)], lag: usize) -> Option<f64> {
+    let mut squares: Vec<f64> = segments
+        .iter()
+        .filter(|(a, b)| b - a > lag)
+        .flat_map(|&(a, b)| (a..b - lag).map(move |t| (u[t + lag] - u[t]).powi(2)))
+        .collect();
+    if squares.is_empty() {
+        return None;
+    }
+    let mid = squares.len() / 2;
+    let (_, median, _) = squares.select_nth_unstable_by(mid, f64::total_cmp);
+    Some(*median / (2.0 * CHI2_1_MEDIAN))
+}
+
+/// Lag-1 autocorrelation of each active principal direction from the robust semivariogram,
+/// `ρ = 1 − D(1)/D(K)` (for AR(1) noise `D(k) = γ₀(1 − ρ^k)`, and `D(K) ≈ γ₀` once `ρ^K` is
+/// small), with `K` four minimum segment lengths. Differences of nearby samples are untouched by
+/// mean shifts, and a vibration adds about as much to `D(1)` as to `D(K)`, so neither looks like
+/// correlated noise. Zero for inactive directions and where it cannot be measured.
+fn lag1_per_direction(
+    z: &[Vector6<f64>],
+    segments: &[(usize, usize)],
+    directions: &Matrix6<f64>,
+    factors: &Vector6<f64>,
+    far_lag: usize,
+) -> Vector6<f64> {
+    Vector6::from_fn(|j, _| {
+        if factors[j] <= 0.0 {
+            return 0.0;
+        }
+        let u: Vec<f64> = z.iter().map(|v| directions.column(j).dot(v)).collect();
+        let near = robust_semivariogram(&u, segments, 1);
+        let far = robust_semivariogram(&u, segments, far_lag);
+        match (near, far) {
+            (Some(near), Some(far)) if far > 0.0 => (1.0 - near / far).clamp(0.0, 1.0),
+            _ => 0.0,
+        }
+    })
+}

@@ -1,0 +1,1 @@
+//! online (being written).

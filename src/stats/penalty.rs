@@ -1,0 +1,318 @@
+//! The change-point penalty that keeps the false-alarm rate of a clean series at a chosen level.
+//!
+//! For a series `y`, PELT with penalty β reports no change point exactly when
+//! `C_0 <= C_k* + k β` for every `k >= 1` (`C_k*` the least cost with `k` change points), i.e.
+//! when `β >= β*(y) = max_k (C_0 − C_k*)/k`. The false-alarm rate at β is `P(β*(Y) > β)` for a
+//! clean series `Y`, so the penalty for rate α is the `1 − α` quantile of `β*` under the null.
+//!
+//! The null is the whole procedure applied to simulated clean series of the same length,
+//! dimension and minimum segment length: stationary Gaussian AR(1) noise with unit variance
+//! (white noise for ρ = 0); the effective-noise inflation is estimated from each simulated series
+//! exactly as from the data (`noise` module) and the series is rescaled by it before the search.
+//! The penalty therefore includes the estimation error of the inflation (a studentised
+//! statistic). That error grows with the correlation (fewer effectively independent samples),
+//! so ρ is set from the data's own lag-1 autocorrelation, rounded up to a grid
+//! ([`NULL_LAG1_GRID`]) so that calibrations can be shared; the penalty grows with ρ, so rounding
+//! up errs towards fewer false alarms.
+//!
+//! Series longer than `max_simulated_samples` are simulated at that length and the rate is
+//! scaled by `ln(n_sim/m) / ln(n/m)`: the tail probability of the maximal likelihood-ratio scan
+//! grows like the logarithm of the range of segment lengths it covers (James, James & Siegmund
+//! 1987, Biometrika 74:71-83, the approximation for the maximal chi-square statistic).
+
+use std::collections::HashMap;
+use std::sync::{Arc, Mutex};
+
+use nalgebra::Vector6;
+use rand::SeedableRng;
+use rand_distr::{Distribution, StandardNormal};
+use rand_pcg::Pcg64Mcg;
+use rayon::prelude::*;
+
+use super::changepoint::pelt;
+use super::cost::{L2Cost, SegmentCost};
+use super::noise::{estimate_effective_noise, NoiseScales};
+use super::{check_probability, StatsError};
+
+/// AR(1) coefficients at which null series are simulated; a data coefficient is rounded up to
+/// the next one (and capped at the last).
+pub const NULL_LAG1_GRID: [f64; 20] = [
+    0.0, 0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.75, 0.8, 0.85, 0.88, 0.9, 0.92, 0.94, 0.95, 0.96,
+    0.97, 0.98, 0.99,
+];
+
+/// The grid coefficient used for a data lag-1 autocorrelation bound, and whether it was capped
+/// (the data are more correlated than any simulated null).
+pub fn null_lag1(data_upper: f64) -> (f64, bool) {
+    let last = NULL_LAG1_GRID[NULL_LAG1_GRID.len() - 1];
+    match NULL_LAG1_GRID.iter().find(|&&g| g >= data_upper) {
+        Some(&g) => (g, false),
+        None => (last, true),
+    }
+}
+
+/// How penalties are calibrated.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CalibrationSettings {
+    /// Number of simulated clean series.
+    pub runs: usize,
+    /// Seed of the simulation (each run derives its own stream from it and its index).
+    pub seed: u64,
+    /// Longest series simulated; longer ones are extrapolated (see the module docs).
+    pub max_simulated_samples: usize,
+}
+
+impl Default for CalibrationSettings {
+    fn default() -> Self {
+        Self {
+            runs: 1000,
+            seed: 0x6d6f_756e_7464_7269,
+            max_simulated_samples: 1000,
+        }
+    }
+}
+
+/// A calibrated penalty and how it was obtained (echoed in reports).
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct PenaltyCalibration {
+    /// The penalty β per change point, in units of the effective (whitened) chi-square cost.
+    pub penalty: f64,
+    /// The false-alarm rate α it was set for (per series).
+    pub false_alarm_rate: f64,
+    /// The rate actually simulated (smaller than α when the series is longer than simulated).
+    pub simulated_rate: f64,
+    /// Monte Carlo standard error of the simulated rate, `√(a(1−a)/runs)`.
+    pub rate_standard_error: f64,
+    /// Length of the series the penalty is for.
+    pub n_samples: usize,
+    /// Length of the simulated series.
+    pub simulated_samples: usize,
+    /// Dimension and minimum segment length.
+    pub dim: usize,
+    pub min_size: usize,
+    /// AR(1) coefficient of the simulated null noise.
+    pub null_lag1: f64,
+    pub runs: usize,
+    pub seed: u64,
+    /// The simulated `β*` values, sorted (for p-values of found change points).
+    #[serde(skip)]
+    pub null_critical: Arc<Vec<f64>>,
+}
+
+impl PenaltyCalibration {
+    /// The probability that a clean series of this length shows a change point at least as
+    /// strong (a likelihood-ratio gain at least `gain`): `(1 + #{β* >= gain})/(R + 1)`, scaled
+    /// to the series length like the rate.
+    pub fn p_value(&self, gain: f64) -> f64 {
+        let exceed = self
+            .null_critical
+            .iter()
+            .rev()
+            .take_while(|&&b| b >= gain)
+            .count();
+        let simulated = (1 + exceed) as f64 / (self.runs + 1) as f64;
+        let scale = self.false_alarm_rate / self.simulated_rate;
+        (simulated * scale).min(1.0)
+    }
+}
+
+/// `β*(y) = max_k (C_0 − C_k*)/k`: the smallest penalty at which PELT reports no change point.
+///
+/// Found by the increasing sequence β ← (C_0 − C(S))/k(S) where S is PELT's segmentation at the
+/// current β (Dinkelbach's method for a ratio; each step strictly increases β until PELT
+/// returns the single segment), started from the best single split.
+pub fn critical_penalty<C: SegmentCost>(cost: &C, min_size: usize) -> Result<f64, StatsError> {
+    let n = cost.n_samples();
+    let whole = cost.cost(0, n);
+    let mut beta = best_single_split_gain(cost, min_size);
+    loop {
+        let seg = pelt(cost, beta, min_size)?;
+        let k = seg.change_points().len();
+        if k == 0 {
+            return Ok(beta);
+        }
+        let fitted = seg.objective - beta * k as f64;
+        let next = (whole - fitted) / k as f64;
+        if next <= beta * (1.0 + 1e-12) {
+            return Ok(beta);
+        }
+        beta = next;
+    }
+}
+
+/// `max_t C(0, n) − C(0, t) − C(t, n)` over splits leaving `min_size` samples on each side.
+pub fn best_single_split_gain<C: SegmentCost>(cost: &C, min_size: usize) -> f64 {
+    let n = cost.n_samples();
+    let whole = cost.cost(0, n);
+    (min_size.max(1)..=n.saturating_sub(min_size.max(1)))
+        .map(|t| whole - cost.cost(0, t) - cost.cost(t, n))
+        .fold(0.0, f64::max)
+}
+
+/// SplitMix64 finaliser (Steele, Lea & Flood 2014): a well-mixed stream seed from a base seed
+/// and a run index, so results do not depend on how rayon schedules the runs.
+pub fn stream_seed(seed: u64, index: u64) -> u64 {
+    let mut z = seed.wrapping_add(index.wrapping_add(1).wrapping_mul(0x9e37_79b9_7f4a_7c15));
+    z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
+    z ^ (z >> 31)
+}
+
+/// Stationary AR(1) series with unit marginal variance in the first `dim` coordinates,
+/// `e_t = ρ e_{t−1} + √(1−ρ²) w_t` (white noise for ρ = 0).
+pub fn ar1_series(rng: &mut Pcg64Mcg, n: usize, dim: usize, rho: f64) -> Vec<Vector6<f64>> {
+    let draw = |rng: &mut Pcg64Mcg| {
+        Vector6::from_fn(|i, _| {
+            if i < dim {
+                StandardNormal.sample(rng)
+            } else {
+                0.0
+            }
+        })
+    };
+    let innovation = (1.0 - rho * rho).sqrt();
+    let mut e = draw(rng);
+    (0..n)
+        .map(|_| {
+            let w = draw(rng);
+            e = e * rho + w * innovation;
+            e
+        })
+        .collect()
+}
+
+/// `β*` of one simulated clean series.
+fn null_critical_penalty(key: &NullKey, seed: u64) -> Result<f64, StatsError> {
+    let mut rng = Pcg64Mcg::seed_from_u64(seed);
+    let z = ar1_series(&mut rng, key.n, key.dim, NULL_LAG1_GRID[key.lag1_index]);
+    let noise = estimate_effective_noise(
+        &z,
+        key.dim,
+        &[(0, key.n)],
+        &NoiseScales::for_min_size(key.min_size),
+    );
+    let map = noise.inverse_sqrt();
+    let y: Vec<Vector6<f64>> = z.iter().map(|v| map * v).collect();
+    critical_penalty(&L2Cost::from_vectors(&y)?, key.min_size)
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+struct NullKey {
+    n: usize,
+    dim: usize,
+    min_size: usize,
+    lag1_index: usize,
+}
+
+/// Calibrates penalties by simulation and remembers each simulated null distribution, so that
+/// many series of the same length and noise class (simulations, sensitivity studies) share one.
+#[derive(Debug, Default)]
+pub struct PenaltyCalibrator {
+    settings: CalibrationSettings,
+    cache: Mutex<HashMap<NullKey, Arc<Vec<f64>>>>,
+}
+
+impl PenaltyCalibrator {
+    /// A calibrator with the given settings.
+    pub fn new(settings: CalibrationSettings) -> Self {
+        Self {
+            settings,
+            cache: Mutex::new(HashMap::new()),
+        }
+    }
+
+    /// The settings in use.
+    pub fn settings(&self) -> &CalibrationSettings {
+        &self.settings
+    }
+
+    /// The penalty for a series of `n` samples of dimension `dim` (1..=6), minimum segment
+    /// length `min_size` and lag-1 autocorrelation bound `data_lag1`, such that a clean series
+    /// raises a change point with probability `false_alarm_rate` (see the module docs).
+    pub fn calibrate(
+        &self,
+        n: usize,
+        dim: usize,
+        min_size: usize,
+        false_alarm_rate: f64,
+        data_lag1: f64,
+    ) -> Result<PenaltyCalibration, StatsError> {
+        check_probability(false_alarm_rate)?;
+        let min_size = min_size.max(1);
+        if n < 2 * min_size {
+            return Err(StatsError::TooFewSamples {
+                what: "penalty calibration (two minimum-length segments)",
+                needed: 2 * min_size,
+                got: n,
+            });
+        }
+        if !(1..=6).contains(&dim) || self.settings.runs == 0 {
+            return Err(StatsError::InvalidParameter {
+                name: "calibration dimension or runs",
+                value: dim as f64,
+                expected: "a dimension from 1 to 6 and at least one run",
+            });
+        }
+        let (lag1, _) = null_lag1(data_lag1);
+        let key = NullKey {
+            n: n.min(self.settings.max_simulated_samples.max(2 * min_size)),
+            dim,
+            min_size,
+            lag1_index: NULL_LAG1_GRID.iter().position(|&g| g >= lag1).unwrap_or(0),
+        };
+        let betas = self.null_distribution(&key)?;
+        let rate = extrapolated_rate(false_alarm_rate, n, key.n, min_size);
+        Ok(PenaltyCalibration {
+            penalty: upper_quantile(&betas, rate),
+            false_alarm_rate,
+            simulated_rate: rate,
+            rate_standard_error: (rate * (1.0 - rate) / self.settings.runs as f64).sqrt(),
+            n_samples: n,
+            simulated_samples: key.n,
+            dim,
+            min_size,
+            null_lag1: lag1,
+            runs: self.settings.runs,
+            seed: self.settings.seed,
+            null_critical: betas,
+        })
+    }
+
+    fn null_distribution(&self, key: &NullKey) -> Result<Arc<Vec<f64>>, StatsError> {
+        if let Some(found) = self.lock().get(key) {
+            return Ok(found.clone());
+        }
+        let seed = stream_seed(self.settings.seed, key.lag1_index as u64);
+        let mut betas = (0..self.settings.runs as u64)
+            .into_par_iter()
+            .map(|i| null_critical_penalty(key, stream_seed(seed, i)))
+            .collect::<Result<Vec<f64>, StatsError>>()?;
+        betas.sort_by(f64::total_cmp);
+        let betas = Arc::new(betas);
+        self.lock().insert(*key, betas.clone());
+        Ok(betas)
+    }
+
+    fn lock(&self) -> std::sync::MutexGuard<'_, HashMap<NullKey, Arc<Vec<f64>>>> {
+        // A poisoned cache only means another thread panicked mid-insert; the map is still valid.
+        self.cache.lock().unwrap_or_else(|e| e.into_inner())
+    }
+}
+
+/// The rate to simulate at length `simulated` so that the rate at length `n` is `alpha`.
+fn extrapolated_rate(alpha: f64, n: usize, simulated: usize, min_size: usize) -> f64 {
+    if n <= simulated {
+        return alpha;
+    }
+    let m = min_size as f64;
+    let ratio = (simulated as f64 / m).ln() / (n as f64 / m).ln();
+    alpha * ratio.clamp(0.0, 1.0)
+}
+
+/// The value exceeded by at most a fraction `rate` of the sorted sample: the order statistic at
+/// rank `ceil((1 − rate)·R)`.
+fn upper_quantile(sorted: &[f64], rate: f64) -> f64 {
+    let r = sorted.len();
+    let rank = ((1.0 - rate) * r as f64).ceil() as usize;
+    sorted[rank.clamp(1, r) - 1]
+}
