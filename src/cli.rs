@@ -7,7 +7,10 @@ use std::path::PathBuf;
 use std::process::ExitCode;
 
 use clap::{Args, Parser, Subcommand};
-use mountdrift::commands::audit::{self, AuditError, AuditOptions, ReadSummary as AuditOutcome};
+use mountdrift::commands::audit::{self, AuditError, AuditOptions, Gate, SessionSource};
+use mountdrift::report::{
+    write_audit_json, write_audit_summary, AuditFile, AuditReport, TerminalStyle,
+};
 use mountdrift::session::{InputError, Policy};
 
 use mountdrift::commands::camera::{self, FromExifError, FromExifOptions};
@@ -15,6 +18,7 @@ use mountdrift::commands::simulate::{self, ScenarioSource, SimulateOptions};
 use mountdrift::sim::SimError;
 
 use crate::output::{self, OutputError, StagedOutputs};
+use crate::progress;
 
 /// Audits the camera-to-probe mount of a vision-based probe-and-drogue system: did the mount
 /// move during a session, when, by how much, and what error would a fixed-offset pipeline have
@@ -98,9 +102,13 @@ pub struct FromExifArgs {
 }
 
 #[derive(Debug, Args)]
+#[command(group(clap::ArgGroup::new("input").required(true).args(["session", "demo"])))]
 pub struct AuditArgs {
     /// The session manifest (YAML).
-    pub session: PathBuf,
+    pub session: Option<PathBuf>,
+    /// Audit the built-in demo session instead (simulated in memory; no files needed).
+    #[arg(long)]
+    pub demo: bool,
     /// Write the report files into this folder (created if needed).
     #[arg(long, value_name = "DIR")]
     pub out: Option<PathBuf>,
@@ -120,10 +128,11 @@ impl TryFrom<&AuditArgs> for AuditOptions {
             Some(path) => Policy::load(path)?,
             None => Policy::default(),
         };
-        Ok(AuditOptions {
-            session: args.session.clone(),
-            policy,
-        })
+        let source = match &args.session {
+            Some(path) => SessionSource::Manifest(path.clone()),
+            None => SessionSource::Demo,
+        };
+        Ok(AuditOptions { source, policy })
     }
 }
 
@@ -215,47 +224,26 @@ fn finish_stdout(printed: io::Result<()>) -> Result<ExitCode, CliError> {
 
 fn run_audit(args: &AuditArgs) -> Result<ExitCode, CliError> {
     let options = AuditOptions::try_from(args)?;
-    let outcome = audit::run(&options)?;
+    let bar = progress::FrameProgress::new(!args.json);
+    let outcome = audit::run(&options, &|n| bar.update(n))?;
+    bar.finish();
     if let Some(dir) = &args.out {
+        let report = AuditReport::new(&outcome);
         let mut outputs = StagedOutputs::create(dir)?;
-        outputs.add("report.json", |w| write_json(w, &outcome))?;
+        for file in AuditFile::ALL {
+            outputs.add(file.name(), |w| report.write(file, w))?;
+        }
         outputs.commit()?;
     }
     let mut stdout = io::stdout().lock();
     let printed = if args.json {
-        write_json(&mut stdout, &outcome)
+        write_audit_json(&mut stdout, &outcome)
     } else {
-        write_summary(&mut stdout, &outcome)
+        write_audit_summary(&mut stdout, &outcome, TerminalStyle::detect())
     };
-    finish_stdout(printed)
-}
-
-fn write_json(w: &mut dyn Write, outcome: &AuditOutcome) -> io::Result<()> {
-    serde_json::to_writer_pretty(&mut *w, outcome)?;
-    writeln!(w)
-}
-
-fn write_summary(w: &mut dyn Write, outcome: &AuditOutcome) -> io::Result<()> {
-    let f = &outcome.frames;
-    writeln!(w, "session {}", outcome.session)?;
-    writeln!(
-        w,
-        "  {} frames ({} to {}, {:.3} s to {:.3} s): probe seen in {}, drogue in {}",
-        f.total,
-        f.first_frame,
-        f.last_frame,
-        f.first_time_s,
-        f.last_time_s,
-        f.with_probe,
-        f.with_drogue
-    )?;
-    if let Some(rows) = outcome.truth_rows {
-        writeln!(w, "  truth: {rows} rows")?;
-    }
-    let mount = if outcome.nominal_mount {
-        "given"
-    } else {
-        "not given (drift within the session only)"
-    };
-    writeln!(w, "  nominal mount: {mount}")
+    finish_stdout(printed)?;
+    Ok(match outcome.gate {
+        Gate::Pass => ExitCode::SUCCESS,
+        Gate::Fail => ExitCode::from(1),
+    })
 }

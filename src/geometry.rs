@@ -131,6 +131,15 @@ impl MountDeviation {
         nalgebra::Vector6::new(t.x, t.y, t.z, r[0], r[1], r[2])
     }
 
+    /// Inverse of [`to_report_vector`](Self::to_report_vector): mm and degrees back to metres
+    /// and radians.
+    pub fn from_report_vector(v: &nalgebra::Vector6<f64>) -> Self {
+        Self {
+            translation_m: nalgebra::Vector3::new(v[0], v[1], v[2]) / 1000.0,
+            rotation: YawPitchRoll::new(v[3].to_radians(), v[4].to_radians(), v[5].to_radians()),
+        }
+    }
+
     /// Applies this deviation to a reference mount (inverse of [`between`](Self::between)).
     pub fn apply_to(&self, reference: &Mount) -> Mount {
         let r = reference.boresight_rotation() * self.rotation.to_rotation();

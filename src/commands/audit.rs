@@ -1,23 +1,43 @@
-//! The audit job: options in, a serialisable outcome out; never prints and writes no files.
+//! The audit job: did the camera-to-probe mount move during a session, when, by how much, and
+//! what error would a fixed-offset pipeline have made? Options in, a serialisable outcome out;
+//! never prints and writes no files.
 //!
-//! Steps: load and validate the session, then stream every detection frame (and the truth rows,
-//! when present) through the input checks, and summarise what was read.
+//! Steps: open the session (or simulate the demo), solve both objects in every frame, run the
+//! tests on the mount deviation series, decide verdict and gate, and assemble the report.
 
 use std::path::PathBuf;
 
-use serde::Serialize;
+use crate::session::{InputError, Policy, Session};
+use crate::sim::{self, SimError, Simulation};
+use crate::stats::StatsError;
 
-use crate::session::{DetectionReader, InputError, Policy, Session, TruthReader};
-
+mod analysis;
+mod assemble;
+mod input;
 mod outcome;
+mod solve;
+mod verdict;
+
+pub use input::{FrameInput, Setup};
 pub use outcome::*;
+
+/// The name of the built-in demo scenario that `audit --demo` simulates in memory.
+pub const DEMO_PRESET: &str = "demo";
+
+/// Which session to audit.
+#[derive(Debug, Clone, PartialEq)]
+pub enum SessionSource {
+    /// A session manifest on disk.
+    Manifest(PathBuf),
+    /// The built-in demo scenario, simulated in memory.
+    Demo,
+}
 
 /// Validated options of an audit.
 #[derive(Debug, Clone, PartialEq)]
 pub struct AuditOptions {
-    /// The session manifest.
-    pub session: PathBuf,
-    /// Gate tolerances.
+    pub source: SessionSource,
+    /// Gate tolerances and the false-alarm rate.
     pub policy: Policy,
 }
 
@@ -26,69 +46,43 @@ pub struct AuditOptions {
 pub enum AuditError {
     #[error(transparent)]
     Input(#[from] InputError),
+    #[error(transparent)]
+    Simulation(#[from] SimError),
+    #[error("the statistics could not be computed: {0}")]
+    Statistics(#[from] StatsError),
 }
 
-/// What an audit found.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct ReadSummary {
-    /// The manifest, as given.
-    pub session: String,
-    pub nominal_mount: bool,
-    pub frames: FrameSummary,
-    /// Truth rows read, when the session has truth.
-    pub truth_rows: Option<u64>,
-    pub policy: Policy,
-}
-
-/// Counts of the detection frames and keypoints read.
-#[derive(Debug, Clone, PartialEq, Default, Serialize)]
-pub struct FrameSummary {
-    pub total: u64,
-    pub first_frame: u64,
-    pub last_frame: u64,
-    pub first_time_s: f64,
-    pub last_time_s: f64,
-    /// Frames with at least one probe (drogue) keypoint.
-    pub with_probe: u64,
-    pub with_drogue: u64,
-    /// Keypoint rows per object.
-    pub probe_keypoints: u64,
-    pub drogue_keypoints: u64,
-}
-
-/// Runs the audit.
-pub fn run(options: &AuditOptions) -> Result<ReadSummary, AuditError> {
-    let session = Session::load(&options.session)?;
-    let frames = summarise_frames(session.detections()?)?;
-    let truth_rows = session.truth()?.map(count_truth).transpose()?;
-    Ok(ReadSummary {
-        session: options.session.display().to_string(),
-        nominal_mount: session.mount.is_some(),
-        frames,
-        truth_rows,
-        policy: options.policy,
-    })
-}
-
-fn summarise_frames(reader: DetectionReader) -> Result<FrameSummary, InputError> {
-    let mut summary = FrameSummary::default();
-    for frame in reader {
-        let frame = frame?;
-        if summary.total == 0 {
-            summary.first_frame = frame.frame;
-            summary.first_time_s = frame.time_s;
+/// Runs the audit; `progress` hears the number of frames solved so far.
+pub fn run(options: &AuditOptions, progress: &dyn Fn(u64)) -> Result<AuditOutcome, AuditError> {
+    match &options.source {
+        SessionSource::Manifest(path) => {
+            let session = Session::load(path)?;
+            let setup = Setup::from_session(&session, path);
+            let frames = input::JoinedFrames::new(session.detections()?, session.truth()?);
+            audit_frames(&setup, frames, &options.policy, progress)
         }
-        summary.total += 1;
-        summary.last_frame = frame.frame;
-        summary.last_time_s = frame.time_s;
-        summary.with_probe += u64::from(!frame.probe.is_empty());
-        summary.with_drogue += u64::from(!frame.drogue.is_empty());
-        summary.probe_keypoints += frame.probe.len() as u64;
-        summary.drogue_keypoints += frame.drogue.len() as u64;
+        SessionSource::Demo => {
+            let scenario = sim::preset(DEMO_PRESET).ok_or_else(|| SimError::UnknownPreset {
+                name: DEMO_PRESET.to_string(),
+                available: sim::preset_names().join(", "),
+            })?;
+            let simulation = Simulation::new(&scenario)?;
+            let setup = Setup::from_simulation(&simulation, "built-in demo (simulated)");
+            let frames = simulation.frames().map(input::simulated);
+            audit_frames(&setup, frames, &options.policy, progress)
+        }
     }
-    Ok(summary)
 }
 
-fn count_truth(reader: TruthReader) -> Result<u64, InputError> {
-    reader.map(|row| row.map(|_| 1)).sum()
+/// Audits a stream of frames: solve, test, decide, assemble. Also used on sessions simulated in
+/// memory (sensitivity studies).
+pub fn audit_frames(
+    setup: &Setup,
+    frames: impl Iterator<Item = FrameInput>,
+    policy: &Policy,
+    progress: &dyn Fn(u64),
+) -> Result<AuditOutcome, AuditError> {
+    let solved = solve::solve_all(setup, frames, progress)?;
+    let analysis = analysis::analyse(&solved, policy.false_alarm_rate, setup.camera.pixel_sigma)?;
+    Ok(assemble::build(setup, &solved, &analysis, policy))
 }

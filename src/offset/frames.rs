@@ -72,13 +72,21 @@ impl FrameRecord {
     pub fn dual_vector_m(&self) -> Option<Vector3<f64>> {
         let mount = self.observed_mount?;
         let x_c = self.drogue_camera_m?;
-        Some(super::vector_with_mount(&mount, &self.probe_reference_b, &x_c))
+        Some(super::vector_with_mount(
+            &mount,
+            &self.probe_reference_b,
+            &x_c,
+        ))
     }
 
     /// The vector a pipeline assuming `mount` would report (m), when the drogue was solved.
     pub fn vector_with_mount_m(&self, mount: &Mount) -> Option<Vector3<f64>> {
         let x_c = self.drogue_camera_m?;
-        Some(super::vector_with_mount(mount, &self.probe_reference_b, &x_c))
+        Some(super::vector_with_mount(
+            mount,
+            &self.probe_reference_b,
+            &x_c,
+        ))
     }
 }
 

@@ -154,8 +154,9 @@ pub struct ChangeSearch {
     pub false_alarm_rate: f64,
     /// Null sessions simulated to set the penalty (0 when set analytically).
     pub calibration_runs: u64,
-    /// Ratio of the effective (long-run) noise variance to the predicted one, per axis in the
-    /// order x, y, z, yaw, pitch, roll: above 1 when detections err alike frame to frame.
+    /// Ratio of the effective noise variance to the one the per-frame covariances predict, along
+    /// the principal directions of the whitened deviation series, largest first (unobserved
+    /// directions 0): above 1 when detections err alike frame to frame or the mount vibrates.
     pub noise_inflation: [f64; 6],
 }
 

@@ -1,0 +1,160 @@
+//! The statistics of an audit: the deviation series handed to `stats` (drift analysis with
+//! change points and segments, per-frame and windowed consistency with the nominal, pixel noise)
+//! and the segment mounts the fixed-offset error is computed from.
+
+use nalgebra::Vector6;
+
+use crate::geometry::{Mount, MountDeviation};
+use crate::stats::consistency::{
+    estimate_pixel_noise, frame_consistency, windowed_consistency, ChiSquareTest,
+    PixelNoiseEstimate,
+};
+use crate::stats::drift::{
+    analyse_drift, DeviationSample, DeviationSeries, DriftAnalysis, DriftOptions,
+};
+use crate::stats::information::Information;
+use crate::stats::penalty::{CalibrationSettings, PenaltyCalibrator};
+use crate::stats::StatsError;
+
+use super::solve::Solved;
+
+/// Level of every confidence interval in the report.
+pub const LEVEL: f64 = 0.95;
+
+/// Per-frame consistency test level (a frame over its 99% chi-square quantile is counted).
+pub const FRAME_ALPHA: f64 = 0.01;
+
+/// Frames per window of the windowed consistency test (one second at 30 Hz).
+pub const WINDOW_FRAMES: usize = 30;
+
+/// What the statistics found.
+#[derive(Debug, Clone)]
+pub struct Analysis {
+    /// Record index of each deviation sample (frames whose probe was solved).
+    pub sample_records: Vec<usize>,
+    /// `None` when the session has too few solved frames for a change-point search.
+    pub drift: Option<DriftAnalysis>,
+    /// Segment of each sample.
+    pub sample_segment: Vec<usize>,
+    /// Each segment's mount estimate (reference ⊕ segment mean deviation).
+    pub segment_mounts: Vec<Mount>,
+    /// Per-frame chi-square against the reference (the nominal); one per sample.
+    pub frame_tests: Vec<ChiSquareTest>,
+    pub windows: Vec<ChiSquareTest>,
+    pub pixel: Option<PixelNoiseEstimate>,
+}
+
+/// Runs every test on the solved session.
+pub fn analyse(
+    solved: &Solved,
+    false_alarm_rate: f64,
+    assumed_sigma_px: f64,
+) -> Result<Analysis, StatsError> {
+    let (sample_records, samples) = deviation_samples(solved);
+    let frame_tests = samples
+        .iter()
+        .enumerate()
+        .map(|(i, s)| {
+            Information::from_covariance(&s.covariance, i)
+                .map(|w| frame_consistency(&s.deviation, &w))
+        })
+        .collect::<Result<Vec<_>, _>>()?;
+    let windows = if frame_tests.len() >= WINDOW_FRAMES {
+        windowed_consistency(&frame_tests, WINDOW_FRAMES)?
+    } else {
+        Vec::new()
+    };
+    let drift = run_drift(&samples, false_alarm_rate)?;
+    let sample_segment = segment_of_samples(drift.as_ref(), samples.len());
+    let segment_mounts = drift
+        .as_ref()
+        .map(|d| {
+            d.segments
+                .iter()
+                .map(|s| mount_of(&solved.reference, &s.mean.mean))
+                .collect()
+        })
+        .unwrap_or_default();
+    Ok(Analysis {
+        sample_records,
+        drift,
+        sample_segment,
+        segment_mounts,
+        frame_tests,
+        windows,
+        pixel: pixel_noise(solved, assumed_sigma_px)?,
+    })
+}
+
+/// The mount at `deviation` (report units) from `reference`.
+pub fn mount_of(reference: &Mount, deviation: &Vector6<f64>) -> Mount {
+    MountDeviation::from_report_vector(deviation).apply_to(reference)
+}
+
+fn deviation_samples(solved: &Solved) -> (Vec<usize>, Vec<DeviationSample>) {
+    solved
+        .records
+        .iter()
+        .enumerate()
+        .filter_map(|(i, r)| {
+            let sample = DeviationSample {
+                frame: r.frame as i64,
+                time_s: r.time_s,
+                deviation: r.deviation?,
+                covariance: r.deviation_covariance?,
+            };
+            Some((i, sample))
+        })
+        .unzip()
+}
+
+fn run_drift(
+    samples: &[DeviationSample],
+    false_alarm_rate: f64,
+) -> Result<Option<DriftAnalysis>, StatsError> {
+    let options = DriftOptions {
+        false_alarm_rate,
+        level: LEVEL,
+        ..DriftOptions::default()
+    };
+    if samples.len() < 2 * options.min_segment_samples {
+        return Ok(None);
+    }
+    let series = DeviationSeries::new(samples)?;
+    let calibrator = PenaltyCalibrator::new(CalibrationSettings::default());
+    analyse_drift(&series, &options, &calibrator).map(Some)
+}
+
+fn segment_of_samples(drift: Option<&DriftAnalysis>, n: usize) -> Vec<usize> {
+    let Some(drift) = drift else {
+        return vec![0; n];
+    };
+    let mut out = Vec::with_capacity(n);
+    for (k, cp_end) in drift
+        .change_points
+        .iter()
+        .map(|c| c.index)
+        .chain(std::iter::once(n))
+        .enumerate()
+    {
+        out.resize(cp_end, k);
+    }
+    out
+}
+
+/// Pixel noise from both objects' reprojection chi-squares (in units of the stated sigma).
+fn pixel_noise(
+    solved: &Solved,
+    assumed_sigma_px: f64,
+) -> Result<Option<PixelNoiseEstimate>, StatsError> {
+    let fits = solved
+        .records
+        .iter()
+        .flat_map(|r| [r.probe.as_ref().ok(), r.drogue.as_ref().ok()])
+        .flatten();
+    let (chi2, dof): (Vec<f64>, Vec<usize>) = fits.map(|f| (f.chi2, f.dof)).unzip();
+    if dof.iter().sum::<usize>() == 0 {
+        return Ok(None);
+    }
+    estimate_pixel_noise(&chi2, &dof, assumed_sigma_px, LEVEL).map(Some)
+}

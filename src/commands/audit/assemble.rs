@@ -1,0 +1,467 @@
+//! Turns the solved frames and the statistics into the audit outcome: frame counts, change points
+//! and segments in report units, the fixed-offset error from each segment's mount, truth errors,
+//! verdict, gate and warnings.
+
+use std::collections::BTreeMap;
+
+use nalgebra::Vector6;
+
+use crate::offset::fixed_offset_error;
+use crate::offset::frames::FrameRecord;
+use crate::session::{MountFile, Policy};
+use crate::stats::drift::{DriftAnalysis, SegmentEstimate};
+use crate::stats::segments::shift_between;
+
+use super::analysis::{Analysis, FRAME_ALPHA, LEVEL, WINDOW_FRAMES};
+use super::input::Setup;
+use super::outcome::*;
+use super::solve::Solved;
+use super::verdict;
+
+/// Range bins of the fixed-offset error table, m (the last bin is open-ended).
+const RANGE_BIN_EDGES_M: [f64; 7] = [0.0, 5.0, 10.0, 20.0, 40.0, 80.0, f64::INFINITY];
+
+/// Everything the per-frame rows and the summary tables share.
+struct FrameErrors {
+    /// Fixed-offset error (segment mount) per record, mm.
+    fixed_mm: Vec<Option<f64>>,
+    segment: Vec<Option<usize>>,
+}
+
+pub fn build(setup: &Setup, solved: &Solved, analysis: &Analysis, policy: &Policy) -> AuditOutcome {
+    let errors = frame_errors(setup, solved, analysis);
+    let segments = segments(setup, solved, analysis, &errors);
+    let change_points = change_points(analysis.drift.as_ref());
+    let fixed = setup.nominal.map(|_| fixed_offset(solved, &errors, policy));
+    let truth = setup
+        .has_truth
+        .then(|| truth_errors(setup, solved))
+        .flatten();
+    let frames = frame_counts(&solved.records);
+    let pixel_sigma = pixel_sigma(setup, analysis);
+    let nominal_consistency = setup.nominal.map(|_| nominal_consistency(analysis));
+    let verdict = verdict::verdict(&change_points, nominal_consistency.as_ref(), policy);
+    let gate_reasons = verdict::gate_reasons(
+        &change_points,
+        &segments,
+        fixed.as_ref(),
+        setup.nominal.is_some(),
+        policy,
+    );
+    let mut outcome = AuditOutcome {
+        schema: AUDIT_SCHEMA,
+        tool_version: env!("CARGO_PKG_VERSION"),
+        verdict,
+        gate: if gate_reasons.is_empty() {
+            Gate::Pass
+        } else {
+            Gate::Fail
+        },
+        gate_reasons,
+        inputs: inputs(setup, policy),
+        frames,
+        pixel_sigma,
+        nominal_consistency,
+        change_search: change_search(analysis.drift.as_ref(), policy),
+        change_points,
+        segments,
+        fixed_offset: fixed,
+        truth,
+        online_alarm: None,
+        warnings: Vec::new(),
+        rows: Vec::new(),
+    };
+    outcome.rows = rows(setup, solved, analysis, &errors);
+    outcome.warnings = verdict::warnings(&outcome, analysis);
+    outcome
+}
+
+fn inputs(setup: &Setup, policy: &Policy) -> InputsSummary {
+    let model = |m: &crate::model::KeypointModel| ModelSummary {
+        points: m.len(),
+        reference: m.reference_id().to_string(),
+    };
+    InputsSummary {
+        session: setup.name.clone(),
+        camera: setup.camera.clone(),
+        probe: model(&setup.probe),
+        drogue: model(&setup.drogue),
+        nominal_mount: setup.nominal.as_ref().map(MountFile::from_mount),
+        policy: *policy,
+        has_truth: setup.has_truth,
+    }
+}
+
+fn frame_counts(records: &[FrameRecord]) -> FrameCounts {
+    let mut counts = FrameCounts {
+        total: records.len() as u64,
+        ..FrameCounts::default()
+    };
+    let mut reasons: BTreeMap<String, u64> = BTreeMap::new();
+    for r in records {
+        match &r.probe {
+            Ok(fit) => {
+                counts.solved += 1;
+                counts.probe_ill_conditioned += u64::from(fit.ill_conditioned);
+                counts.outlier_keypoints += (fit.keypoints - fit.inliers) as u64;
+            }
+            Err(reason) => {
+                counts.rejected += 1;
+                *reasons
+                    .entry(format!("probe: {}", reason_name(*reason)))
+                    .or_default() += 1;
+            }
+        }
+        match &r.drogue {
+            Ok(fit) => {
+                counts.drogue_ambiguous += u64::from(fit.ambiguous);
+                counts.outlier_keypoints += (fit.keypoints - fit.inliers) as u64;
+                counts.both_solved += u64::from(r.probe.is_ok());
+            }
+            Err(reason) => {
+                *reasons
+                    .entry(format!("drogue: {}", reason_name(*reason)))
+                    .or_default() += 1;
+            }
+        }
+    }
+    counts.rejected_by_reason = reasons;
+    counts
+}
+
+pub fn reason_name(reason: crate::pnp::RejectionReason) -> String {
+    serde_json::to_value(reason)
+        .ok()
+        .and_then(|v| v.as_str().map(str::to_string))
+        .unwrap_or_else(|| format!("{reason:?}"))
+}
+
+fn pixel_sigma(setup: &Setup, analysis: &Analysis) -> PixelSigmaCheck {
+    let assumed = setup.camera.pixel_sigma;
+    match &analysis.pixel {
+        Some(p) => PixelSigmaCheck {
+            assumed,
+            estimated: Some(p.estimated_px),
+            estimated_ci95: Some([p.interval_px.0, p.interval_px.1]),
+            consistent: p.interval_px.0 <= assumed && assumed <= p.interval_px.1,
+            dof: p.dof as u64,
+        },
+        None => PixelSigmaCheck {
+            assumed,
+            estimated: None,
+            estimated_ci95: None,
+            consistent: true,
+            dof: 0,
+        },
+    }
+}
+
+fn nominal_consistency(analysis: &Analysis) -> NominalConsistency {
+    let threshold =
+        crate::stats::distributions::chi2_quantile(1.0 - FRAME_ALPHA, 6.0).unwrap_or(f64::NAN);
+    let over = |tests: &[crate::stats::consistency::ChiSquareTest]| {
+        tests
+            .iter()
+            .filter(|t| t.p_value.is_some_and(|p| p < FRAME_ALPHA))
+            .count() as u64
+    };
+    NominalConsistency {
+        frame_alpha: FRAME_ALPHA,
+        frame_threshold_d2: threshold,
+        frames_tested: analysis.frame_tests.len() as u64,
+        frames_over_threshold: over(&analysis.frame_tests),
+        window_frames: WINDOW_FRAMES as u64,
+        windows: analysis.windows.len() as u64,
+        windows_over_threshold: over(&analysis.windows),
+        session_p_value: verdict::session_p_value(analysis),
+    }
+}
+
+fn change_search(drift: Option<&DriftAnalysis>, policy: &Policy) -> ChangeSearch {
+    let Some(d) = drift else {
+        return ChangeSearch {
+            method: "not run: too few solved frames".to_string(),
+            penalty: 0.0,
+            min_segment_frames: 0,
+            false_alarm_rate: policy.false_alarm_rate,
+            calibration_runs: 0,
+            noise_inflation: [0.0; 6],
+        };
+    };
+    let mut factors: Vec<f64> = d.noise.factors.iter().copied().collect();
+    factors.sort_by(|a, b| b.total_cmp(a));
+    ChangeSearch {
+        method: "exact PELT, information-weighted Gaussian cost under the effective noise"
+            .to_string(),
+        penalty: d.penalty.penalty,
+        min_segment_frames: d.min_segment_samples as u64,
+        false_alarm_rate: d.penalty.false_alarm_rate,
+        calibration_runs: d.penalty.runs as u64,
+        noise_inflation: std::array::from_fn(|i| factors[i]),
+    }
+}
+
+fn split(v: &Vector6<f64>) -> ([f64; 3], [f64; 3]) {
+    ([v[0], v[1], v[2]], [v[3], v[4], v[5]])
+}
+
+fn half_widths(h: &[Option<f64>; 6]) -> ([f64; 3], [f64; 3]) {
+    let v = Vector6::from_fn(|i, _| h[i].unwrap_or(f64::INFINITY));
+    split(&v)
+}
+
+fn change_points(drift: Option<&DriftAnalysis>) -> Vec<ChangePoint> {
+    let Some(d) = drift else { return Vec::new() };
+    d.change_points
+        .iter()
+        .map(|c| {
+            let (t, r) = split(&c.shift.shift);
+            let (th, rh) = half_widths(&c.shift.half_width);
+            ChangePoint {
+                frame: c.frame as u64,
+                time_s: c.time_s,
+                frame_ci95: [c.frame_interval.0 as u64, c.frame_interval.1 as u64],
+                translation_mm: t,
+                rotation_deg: r,
+                translation_ci95_mm: th,
+                rotation_ci95_deg: rh,
+            }
+        })
+        .collect()
+}
+
+fn frame_errors(setup: &Setup, solved: &Solved, analysis: &Analysis) -> FrameErrors {
+    let n = solved.records.len();
+    let mut segment = vec![None; n];
+    for (s, &rec) in analysis.sample_records.iter().enumerate() {
+        segment[rec] = analysis.sample_segment.get(s).copied();
+    }
+    // Frames without a probe solution inherit the segment of the last solved frame before them.
+    let mut last = None;
+    for seg in segment.iter_mut() {
+        match *seg {
+            Some(k) => last = Some(k),
+            None => *seg = last,
+        }
+    }
+    let fixed_mm = solved
+        .records
+        .iter()
+        .zip(&segment)
+        .map(|(r, seg)| {
+            let nominal = setup.nominal?;
+            let mount = analysis.segment_mounts.get((*seg)?)?;
+            let x_c = r.drogue_camera_m?;
+            Some(fixed_offset_error(&nominal, mount, &x_c).norm() * 1000.0)
+        })
+        .collect();
+    FrameErrors { fixed_mm, segment }
+}
+
+fn segments(
+    setup: &Setup,
+    solved: &Solved,
+    analysis: &Analysis,
+    errors: &FrameErrors,
+) -> Vec<Segment> {
+    let Some(drift) = &analysis.drift else {
+        return Vec::new();
+    };
+    let first = drift.segments.first();
+    drift
+        .segments
+        .iter()
+        .map(|s| {
+            let range = segment_records(solved, s);
+            let fixed: Vec<f64> = range.clone().filter_map(|i| errors.fixed_mm[i]).collect();
+            Segment {
+                first_frame: s.first_frame as u64,
+                last_frame: s.last_frame as u64,
+                first_time_s: solved.records[range.start].time_s,
+                last_time_s: solved.records[range.end - 1].time_s,
+                solved_frames: (s.mean.end - s.mean.start) as u64,
+                mount_deviation: segment_deviation(s, first.filter(|_| setup.nominal.is_none())),
+                fixed_offset_error_mm: setup.nominal.and_then(|_| error_stats(fixed)),
+                scatter: scatter(s),
+            }
+        })
+        .collect()
+}
+
+/// Record indices spanned by a segment (first to last frame).
+fn segment_records(solved: &Solved, s: &SegmentEstimate) -> std::ops::Range<usize> {
+    let start = solved.records.partition_point(|r| r.frame < s.first_frame as u64);
+    let end = solved.records.partition_point(|r| r.frame <= s.last_frame as u64);
+    start..end.max(start + 1)
+}
+
+/// Deviation from the nominal, or (without one) from the first segment.
+fn segment_deviation(s: &SegmentEstimate, relative_to: Option<&SegmentEstimate>) -> Deviation {
+    let (mean, half) = match relative_to {
+        Some(first) => match shift_between(&first.mean, &s.mean, LEVEL) {
+            Ok(shift) => (shift.shift, shift.half_width),
+            Err(_) => (s.mean.mean, s.mean.half_width),
+        },
+        None => (s.mean.mean, s.mean.half_width),
+    };
+    let (t, r) = split(&mean);
+    let (th, rh) = half_widths(&half);
+    Deviation {
+        translation_mm: t,
+        rotation_deg: r,
+        translation_ci95_mm: th,
+        rotation_ci95_deg: rh,
+    }
+}
+
+fn scatter(s: &SegmentEstimate) -> ScatterCheck {
+    let p = s.scatter.test.p_value.unwrap_or(1.0);
+    ScatterCheck {
+        ratio: s.scatter.variance_factor.unwrap_or(1.0),
+        p_value: p,
+        excess: p < FRAME_ALPHA,
+    }
+}
+
+/// Median, 95th percentile and maximum (nearest-rank percentiles).
+pub fn error_stats(mut values: Vec<f64>) -> Option<ErrorStats> {
+    if values.is_empty() {
+        return None;
+    }
+    values.sort_by(f64::total_cmp);
+    let rank =
+        |q: f64| values[((q * values.len() as f64).ceil() as usize).clamp(1, values.len()) - 1];
+    Some(ErrorStats {
+        frames: values.len() as u64,
+        median: rank(0.5),
+        p95: rank(0.95),
+        max: values[values.len() - 1],
+    })
+}
+
+fn fixed_offset(solved: &Solved, errors: &FrameErrors, policy: &Policy) -> FixedOffset {
+    let mut over = 0;
+    let mut first_over = None;
+    let mut max_error: f64 = 0.0;
+    let mut bins: Vec<Vec<f64>> = vec![Vec::new(); RANGE_BIN_EDGES_M.len() - 1];
+    for (r, e) in solved.records.iter().zip(&errors.fixed_mm) {
+        let (Some(e), Some(range)) = (*e, r.dual_vector_m().map(|v| v.norm())) else {
+            continue;
+        };
+        max_error = max_error.max(e);
+        if range <= policy.contact_range_m && e > policy.max_vector_error_mm {
+            over += 1;
+            first_over.get_or_insert(r.frame);
+        }
+        let bin = RANGE_BIN_EDGES_M
+            .windows(2)
+            .position(|w| range >= w[0] && range < w[1]);
+        if let Some(b) = bin {
+            bins[b].push(e);
+        }
+    }
+    let by_range = bins
+        .into_iter()
+        .enumerate()
+        .filter_map(|(b, v)| {
+            error_stats(v).map(|s| RangeBin {
+                range_min_m: RANGE_BIN_EDGES_M[b],
+                range_max_m: RANGE_BIN_EDGES_M[b + 1],
+                error_mm: s,
+            })
+        })
+        .collect();
+    FixedOffset {
+        tolerance_mm: policy.max_vector_error_mm,
+        contact_range_m: policy.contact_range_m,
+        frames_over_tolerance: over,
+        first_frame_over_tolerance: first_over,
+        max_error_mm: max_error,
+        by_range,
+    }
+}
+
+/// True errors of both pipelines' vectors, mm.
+fn truth_errors(setup: &Setup, solved: &Solved) -> Option<TruthComparison> {
+    let (dual, fixed): (Vec<Option<f64>>, Vec<Option<f64>>) = solved
+        .records
+        .iter()
+        .zip(&solved.truth)
+        .map(|(r, t)| true_errors(setup, r, t.as_ref()))
+        .unzip();
+    Some(TruthComparison {
+        dual_error_mm: error_stats(dual.into_iter().flatten().collect())?,
+        fixed_error_mm: error_stats(fixed.into_iter().flatten().collect()),
+    })
+}
+
+fn true_errors(
+    setup: &Setup,
+    record: &FrameRecord,
+    truth: Option<&crate::session::TruthRow>,
+) -> (Option<f64>, Option<f64>) {
+    let Some(truth) = truth else {
+        return (None, None);
+    };
+    let dual = record
+        .dual_vector_m()
+        .map(|v| (v - truth.vector_m).norm() * 1000.0);
+    let fixed = setup
+        .nominal
+        .and_then(|m| record.vector_with_mount_m(&m))
+        .map(|v| (v - truth.vector_m).norm() * 1000.0);
+    (dual, fixed)
+}
+
+fn rows(
+    setup: &Setup,
+    solved: &Solved,
+    analysis: &Analysis,
+    errors: &FrameErrors,
+) -> Vec<FrameRow> {
+    let mut sample_of = vec![None; solved.records.len()];
+    for (s, &rec) in analysis.sample_records.iter().enumerate() {
+        sample_of[rec] = Some(s);
+    }
+    solved
+        .records
+        .iter()
+        .enumerate()
+        .map(|(i, r)| {
+            let test = sample_of[i].map(|s| analysis.frame_tests[s]);
+            let (true_dual, true_fixed) = true_errors(setup, r, solved.truth[i].as_ref());
+            let vector = r.dual_vector_m();
+            FrameRow {
+                frame: r.frame,
+                time_s: r.time_s,
+                status: status(r),
+                deviation: r.deviation.map(|d| d.into()),
+                deviation_sigma: r
+                    .deviation_covariance
+                    .map(|c| std::array::from_fn(|k| c[(k, k)].max(0.0).sqrt())),
+                d2: setup.nominal.and(test.map(|t| t.statistic)),
+                dof: setup.nominal.and(test.map(|t| t.dof as u64)),
+                vector_m: vector.map(|v| v.into()),
+                range_m: vector.map(|v| v.norm()),
+                fixed_error_mm: errors.fixed_mm[i],
+                segment: errors.segment[i].map(|k| k as u64),
+                probe_fit: r.probe.as_ref().ok().and_then(fit_ratio),
+                drogue_fit: r.drogue.as_ref().ok().and_then(fit_ratio),
+                true_dual_error_mm: true_dual,
+                true_fixed_error_mm: true_fixed,
+            }
+        })
+        .collect()
+}
+
+fn fit_ratio(f: &crate::offset::frames::Fit) -> Option<f64> {
+    (f.dof > 0).then(|| f.chi2 / f.dof as f64)
+}
+
+fn status(r: &FrameRecord) -> String {
+    match (&r.probe, &r.drogue) {
+        (Ok(_), Ok(_)) => "ok".to_string(),
+        (Ok(_), Err(reason)) => format!("no_drogue:{}", reason_name(*reason)),
+        (Err(reason), _) => format!("rejected:{}", reason_name(*reason)),
+    }
+}

@@ -1,0 +1,79 @@
+//! Streams an audit's frames through the per-frame solver in batches, keeping the frame records
+//! and the truth aligned with them. Memory grows with the solved frames only (no image data,
+//! no keypoints kept).
+
+use crate::geometry::Mount;
+use crate::offset::frames::{FrameRecord, FrameSolver};
+use crate::offset::observed_mount;
+use crate::pnp::{solve_pose, PnpOptions};
+use crate::session::{FrameDetections, InputError, TruthRow};
+
+use super::input::{FrameInput, Setup};
+
+/// Frames read before a parallel solve: big enough to keep both cores busy, small enough that
+/// the keypoints in flight stay a few megabytes.
+const BATCH_FRAMES: usize = 4096;
+
+/// The solved session.
+#[derive(Debug, Clone)]
+pub struct Solved {
+    pub records: Vec<FrameRecord>,
+    /// Truth of each record's frame, when the session has truth.
+    pub truth: Vec<Option<TruthRow>>,
+    /// The mount deviations are measured from: the nominal, or (without one) the observed
+    /// mount of the first frame whose probe could be solved.
+    pub reference: Mount,
+}
+
+/// Reads every frame and solves both objects in each.
+pub fn solve_all(
+    setup: &Setup,
+    frames: impl Iterator<Item = FrameInput>,
+    progress: &dyn Fn(u64),
+) -> Result<Solved, InputError> {
+    let mut solved = Solved {
+        records: Vec::new(),
+        truth: Vec::new(),
+        reference: setup.nominal.unwrap_or_else(|| Mount {
+            position_m: nalgebra::Vector3::zeros(),
+            attitude: crate::geometry::YawPitchRoll::new(0.0, 0.0, 0.0),
+        }),
+    };
+    let mut reference_known = setup.nominal.is_some();
+    let mut batch: Vec<FrameDetections> = Vec::with_capacity(BATCH_FRAMES);
+    let mut frames = frames.peekable();
+    while frames.peek().is_some() {
+        batch.clear();
+        for item in frames.by_ref().take(BATCH_FRAMES) {
+            let (detections, truth) = item?;
+            batch.push(detections);
+            solved.truth.push(truth);
+        }
+        if !reference_known {
+            if let Some(mount) = first_observed_mount(setup, &batch) {
+                solved.reference = mount;
+                reference_known = true;
+            }
+        }
+        let solver = FrameSolver {
+            camera: &setup.camera,
+            probe: &setup.probe,
+            drogue: &setup.drogue,
+            reference: solved.reference,
+            options: PnpOptions::default(),
+        };
+        solved.records.extend(solver.solve_batch(&batch));
+        progress(solved.records.len() as u64);
+    }
+    Ok(solved)
+}
+
+/// The observed mount of the first frame in `batch` whose probe pose solves.
+fn first_observed_mount(setup: &Setup, batch: &[FrameDetections]) -> Option<Mount> {
+    let options = PnpOptions::default();
+    batch.iter().find_map(|f| {
+        solve_pose(&setup.camera, &setup.probe, &f.probe, None, &options)
+            .estimate()
+            .map(|e| observed_mount(&e.pose))
+    })
+}

@@ -1,0 +1,40 @@
+//! Progress on long runs: a counter on standard error, drawn only when standard error is a
+//! terminal and the run prints a human summary (never in pipes or with `--json`).
+
+use std::io::IsTerminal;
+use std::time::Duration;
+
+use indicatif::{ProgressBar, ProgressStyle};
+
+/// Frames solved so far, as a spinner with a count (the total is not known while streaming).
+pub struct FrameProgress {
+    bar: Option<ProgressBar>,
+}
+
+impl FrameProgress {
+    /// `wanted` is false for machine-readable output.
+    pub fn new(wanted: bool) -> Self {
+        let bar = (wanted && std::io::stderr().is_terminal()).then(|| {
+            let bar = ProgressBar::new_spinner();
+            bar.set_style(
+                ProgressStyle::with_template("{spinner} {pos} frames solved ({per_sec}) {elapsed}")
+                    .unwrap_or_else(|_| ProgressStyle::default_spinner()),
+            );
+            bar.enable_steady_tick(Duration::from_millis(120));
+            bar
+        });
+        Self { bar }
+    }
+
+    pub fn update(&self, frames: u64) {
+        if let Some(bar) = &self.bar {
+            bar.set_position(frames);
+        }
+    }
+
+    pub fn finish(&self) {
+        if let Some(bar) = &self.bar {
+            bar.finish_and_clear();
+        }
+    }
+}
