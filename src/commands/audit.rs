@@ -18,7 +18,7 @@ mod outcome;
 mod solve;
 mod verdict;
 
-pub use input::{FrameInput, Setup};
+pub use input::{simulated, FrameInput, Setup};
 pub use outcome::*;
 
 /// The name of the built-in demo scenario that `audit --demo` simulates in memory.

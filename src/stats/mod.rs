@@ -29,6 +29,7 @@ pub mod multivariate;
 pub mod noise;
 pub mod online;
 pub mod penalty;
+pub mod screening;
 pub mod segments;
 
 /// A failure of a statistics routine: always a bad argument, never a numerical accident.

@@ -14,6 +14,7 @@ use crate::stats::drift::{
 };
 use crate::stats::information::Information;
 use crate::stats::penalty::{CalibrationSettings, PenaltyCalibrator};
+use crate::stats::screening::screen_gross_errors;
 use crate::stats::StatsError;
 
 use super::solve::Solved;
@@ -27,11 +28,20 @@ pub const FRAME_ALPHA: f64 = 0.01;
 /// Frames per window of the windowed consistency test (one second at 30 Hz).
 pub const WINDOW_FRAMES: usize = 30;
 
+/// Half-width (samples) of the running median a frame is screened against, and the per-frame
+/// level at which a frame counts as a gross error: at 1e-6 a clean session of a million frames
+/// loses about one frame.
+const SCREEN_HALF_WINDOW: usize = 10;
+const SCREEN_ALPHA: f64 = 1e-6;
+
 /// What the statistics found.
 #[derive(Debug, Clone)]
 pub struct Analysis {
-    /// Record index of each deviation sample (frames whose probe was solved).
+    /// Record index of each deviation sample (frames whose probe was solved and that passed
+    /// the screening for gross errors).
     pub sample_records: Vec<usize>,
+    /// Records set aside as gross errors (a pose far from all its neighbours).
+    pub screened_records: Vec<usize>,
     /// `None` when the session has too few solved frames for a change-point search.
     pub drift: Option<DriftAnalysis>,
     /// Segment of each sample.
@@ -50,15 +60,30 @@ pub fn analyse(
     false_alarm_rate: f64,
     assumed_sigma_px: f64,
 ) -> Result<Analysis, StatsError> {
-    let (sample_records, samples) = deviation_samples(solved);
-    let frame_tests = samples
+    let (records, samples) = deviation_samples(solved);
+    let information = samples
         .iter()
         .enumerate()
-        .map(|(i, s)| {
-            Information::from_covariance(&s.covariance, i)
-                .map(|w| frame_consistency(&s.deviation, &w))
-        })
+        .map(|(i, s)| Information::from_covariance(&s.covariance, i))
         .collect::<Result<Vec<_>, _>>()?;
+    let deviations: Vec<Vector6<f64>> = samples.iter().map(|s| s.deviation).collect();
+    let screening =
+        screen_gross_errors(&deviations, &information, SCREEN_HALF_WINDOW, SCREEN_ALPHA)?;
+    let mut sample_records = Vec::with_capacity(records.len());
+    let mut screened_records = Vec::new();
+    let mut kept = Vec::with_capacity(samples.len());
+    let mut frame_tests = Vec::with_capacity(samples.len());
+    let screened = records.into_iter().zip(samples).zip(&information);
+    for (((record, sample), w), keep) in screened.zip(&screening.keep) {
+        if *keep {
+            frame_tests.push(frame_consistency(&sample.deviation, w));
+            sample_records.push(record);
+            kept.push(sample);
+        } else {
+            screened_records.push(record);
+        }
+    }
+    let samples = kept;
     let windows = if frame_tests.len() >= WINDOW_FRAMES {
         windowed_consistency(&frame_tests, WINDOW_FRAMES)?
     } else {
@@ -77,6 +102,7 @@ pub fn analyse(
         .unwrap_or_default();
     Ok(Analysis {
         sample_records,
+        screened_records,
         drift,
         sample_segment,
         segment_mounts,

@@ -37,7 +37,8 @@ pub fn build(setup: &Setup, solved: &Solved, analysis: &Analysis, policy: &Polic
         .has_truth
         .then(|| truth_errors(setup, solved))
         .flatten();
-    let frames = frame_counts(&solved.records);
+    let mut frames = frame_counts(&solved.records);
+    frames.gross_error_frames = analysis.screened_records.len() as u64;
     let pixel_sigma = pixel_sigma(setup, analysis);
     let nominal_consistency = setup.nominal.map(|_| nominal_consistency(analysis));
     let verdict = verdict::verdict(&change_points, nominal_consistency.as_ref(), policy);
@@ -290,8 +291,12 @@ fn segments(
 
 /// Record indices spanned by a segment (first to last frame).
 fn segment_records(solved: &Solved, s: &SegmentEstimate) -> std::ops::Range<usize> {
-    let start = solved.records.partition_point(|r| r.frame < s.first_frame as u64);
-    let end = solved.records.partition_point(|r| r.frame <= s.last_frame as u64);
+    let start = solved
+        .records
+        .partition_point(|r| r.frame < s.first_frame as u64);
+    let end = solved
+        .records
+        .partition_point(|r| r.frame <= s.last_frame as u64);
     start..end.max(start + 1)
 }
 
@@ -423,6 +428,10 @@ fn rows(
     for (s, &rec) in analysis.sample_records.iter().enumerate() {
         sample_of[rec] = Some(s);
     }
+    let mut screened = vec![false; solved.records.len()];
+    for &rec in &analysis.screened_records {
+        screened[rec] = true;
+    }
     solved
         .records
         .iter()
@@ -434,7 +443,11 @@ fn rows(
             FrameRow {
                 frame: r.frame,
                 time_s: r.time_s,
-                status: status(r),
+                status: if screened[i] {
+                    "gross_error".to_string()
+                } else {
+                    status(r)
+                },
                 deviation: r.deviation.map(|d| d.into()),
                 deviation_sigma: r
                     .deviation_covariance

@@ -115,6 +115,9 @@ pub struct FrameCounts {
     pub drogue_ambiguous: u64,
     /// Keypoints dropped as outliers, over all solved poses.
     pub outlier_keypoints: u64,
+    /// Solved frames set aside before the change-point search because their mount lies far
+    /// from all its neighbours' (a pose solution in a wrong minimum).
+    pub gross_error_frames: u64,
 }
 
 /// Stated against estimated pixel noise.
@@ -277,7 +280,8 @@ pub enum WarningCode {
 pub struct FrameRow {
     pub frame: u64,
     pub time_s: f64,
-    /// `ok`, `no_drogue:<reason>` or `rejected:<reason>`.
+    /// `ok`, `no_drogue:<reason>`, `rejected:<reason>` or `gross_error` (solved, but set aside
+    /// before the tests).
     pub status: String,
     /// Deviation from the nominal (or first segment): x, y, z mm, yaw, pitch, roll deg.
     pub deviation: Option<[f64; 6]>,

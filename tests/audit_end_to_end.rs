@@ -1,0 +1,168 @@
+//! The audit end to end on simulated sessions with known truth (the project's seeded simulator
+//! is the test bed): a clean session is stable, steps are found where they happened and sized
+//! within their intervals, a wrong nominal is off-nominal, vibration with correlated detection
+//! noise raises no false change point, and outliers and dropouts do not move the answer.
+//!
+//! The sessions are short (20-40 s) so the suite stays fast; the false-alarm rate over many
+//! seeds is measured by `examples/audit_false_alarms.rs` and recorded in docs/benchmarks.md.
+
+use mountdrift::commands::audit::{audit_frames, simulated, AuditOutcome, Setup, Verdict};
+use mountdrift::session::Policy;
+use mountdrift::sim::scenario::{MountEvent, StepEvent};
+use mountdrift::sim::{preset, Scenario, Simulation};
+
+fn audit(scenario: &Scenario) -> AuditOutcome {
+    let sim = Simulation::new(scenario).expect("valid scenario");
+    let setup = Setup::from_simulation(&sim, "test");
+    audit_frames(
+        &setup,
+        sim.frames().map(simulated),
+        &Policy::default(),
+        &|_| {},
+    )
+    .expect("audit runs")
+}
+
+fn short(name: &str, seconds: f64) -> Scenario {
+    let mut s = preset(name).expect("preset exists");
+    s.duration_s = seconds;
+    s.mount_events.clear();
+    s
+}
+
+fn step(at_s: f64, translation_mm: [f64; 3], rotation_deg: [f64; 3]) -> MountEvent {
+    MountEvent::Step(StepEvent {
+        at_s,
+        translation_mm,
+        rotation_deg,
+    })
+}
+
+/// First frame at or after `t` (the simulator numbers frames from 0 at the frame rate).
+fn frame_at(s: &Scenario, t: f64) -> i64 {
+    (t * s.frame_rate_hz).ceil() as i64
+}
+
+#[test]
+fn a_clean_session_is_stable() {
+    let outcome = audit(&short("clean", 30.0));
+    assert!(
+        outcome.change_points.is_empty(),
+        "{:?}",
+        outcome.change_points
+    );
+    assert_eq!(outcome.verdict, Verdict::Stable);
+    assert!(outcome.frames.solved * 10 >= outcome.frames.total * 9);
+}
+
+#[test]
+fn a_small_step_is_found_where_it_happened_and_sized_within_its_interval() {
+    let mut s = short("clean", 40.0);
+    s.mount_events
+        .push(step(20.0, [1.0, 0.0, 0.0], [0.0, 0.05, 0.0]));
+    let outcome = audit(&s);
+    assert_eq!(outcome.verdict, Verdict::Shifted);
+    assert_eq!(
+        outcome.change_points.len(),
+        1,
+        "{:?}",
+        outcome.change_points
+    );
+    let c = &outcome.change_points[0];
+    let truth = frame_at(&s, 20.0);
+    assert!(
+        (c.frame as i64 - truth).abs() <= 10,
+        "found at {} vs {truth}",
+        c.frame
+    );
+    assert!(
+        (c.translation_mm[0] - 1.0).abs() <= c.translation_ci95_mm[0],
+        "{c:?}"
+    );
+    assert!(
+        (c.rotation_deg[1] - 0.05).abs() <= c.rotation_ci95_deg[1],
+        "{c:?}"
+    );
+}
+
+#[test]
+fn two_steps_give_two_change_points() {
+    let mut s = short("clean", 40.0);
+    s.mount_events
+        .push(step(12.0, [0.0, 2.0, 0.0], [0.0, 0.0, 0.0]));
+    s.mount_events
+        .push(step(28.0, [0.0, 0.0, 0.0], [0.1, 0.0, 0.0]));
+    let outcome = audit(&s);
+    let frames: Vec<i64> = outcome
+        .change_points
+        .iter()
+        .map(|c| c.frame as i64)
+        .collect();
+    assert_eq!(frames.len(), 2, "{frames:?}");
+    assert!((frames[0] - frame_at(&s, 12.0)).abs() <= 10, "{frames:?}");
+    assert!((frames[1] - frame_at(&s, 28.0)).abs() <= 10, "{frames:?}");
+}
+
+#[test]
+fn a_wrong_nominal_is_off_nominal_without_change_points() {
+    let mut s = short("wrong-nominal", 30.0);
+    s.mount_events.clear();
+    assert!(
+        s.nominal_error.is_some(),
+        "the preset carries a nominal error"
+    );
+    let outcome = audit(&s);
+    assert!(
+        outcome.change_points.is_empty(),
+        "{:?}",
+        outcome.change_points
+    );
+    assert_eq!(outcome.verdict, Verdict::OffNominal);
+}
+
+#[test]
+fn vibration_with_correlated_detection_noise_raises_no_change_point() {
+    // The loose preset carries a vibration event and correlated detection errors.
+    let mut s = preset("loose").expect("preset exists");
+    s.duration_s = 30.0;
+    assert!(s.noise.correlated.is_some());
+    assert!(s
+        .mount_events
+        .iter()
+        .any(|e| matches!(e, MountEvent::Vibration(_))));
+    let outcome = audit(&s);
+    assert!(
+        outcome.change_points.is_empty(),
+        "{:?}",
+        outcome.change_points
+    );
+}
+
+#[test]
+fn outliers_and_dropouts_do_not_move_the_answer() {
+    let mut s = short("clean", 40.0);
+    s.mount_events
+        .push(step(20.0, [0.0, 0.0, 3.0], [0.0, 0.0, 0.0]));
+    let base = audit(&s);
+    s.noise.outliers = Some(mountdrift::sim::scenario::Outliers {
+        fraction: 0.02,
+        min_px: 20.0,
+        max_px: 80.0,
+    });
+    s.noise.dropout_probability = 0.05;
+    let noisy = audit(&s);
+    assert_eq!(base.change_points.len(), 1);
+    assert_eq!(noisy.change_points.len(), 1);
+    let (a, b) = (&base.change_points[0], &noisy.change_points[0]);
+    assert!(
+        (a.frame as i64 - b.frame as i64).abs() <= 5,
+        "{} vs {}",
+        a.frame,
+        b.frame
+    );
+    let tol = a.translation_ci95_mm[2].max(b.translation_ci95_mm[2]);
+    assert!(
+        (a.translation_mm[2] - b.translation_mm[2]).abs() <= tol,
+        "{a:?} vs {b:?}"
+    );
+}
