@@ -17,6 +17,7 @@ use super::consistency::{excess_scatter, ExcessScatter};
 use super::cost::{InformationCost, L2Cost, SegmentCost};
 use super::information::{information_sum_spectrum, Information, Spectrum};
 use super::noise::{estimate_effective_noise, EffectiveNoise, NoiseScales};
+use super::online::{session_alarm, OnlineCalibrator, SessionNull};
 use super::penalty::{null_lag1, stream_seed, PenaltyCalibration, PenaltyCalibrator};
 use super::segments::{
     location_interval, shift_between, weighted_mean, LocationSettings, SegmentMean, Shift,
@@ -255,6 +256,19 @@ impl EffectiveModel {
         }
     }
 
+    /// The effective-whitened samples `Ω̃_t^{1/2} z_t`: unit white noise under the effective model.
+    pub fn effective_whitened(&self) -> Vec<Vector6<f64>> {
+        if self.common {
+            let map = Spectrum::new(&self.effective[0], 0.0).sqrt();
+            return self.z.iter().map(|z| map * z).collect();
+        }
+        self.z
+            .iter()
+            .zip(&self.effective)
+            .map(|(z, e)| Spectrum::new(e, 0.0).sqrt() * z)
+            .collect()
+    }
+
     /// Effective information of every frame in the original coordinates.
     pub fn effective_original(&self) -> Vec<Matrix6<f64>> {
         self.effective
@@ -309,6 +323,14 @@ pub struct DriftOptions {
     pub location: LocationSettings,
 }
 
+/// The simulated null distributions an analysis draws on (penalty and online threshold),
+/// shared by all series analysed with it.
+#[derive(Debug, Default)]
+pub struct Calibrators {
+    pub penalty: PenaltyCalibrator,
+    pub online: OnlineCalibrator,
+}
+
 impl Default for DriftOptions {
     fn default() -> Self {
         Self {
@@ -353,6 +375,28 @@ pub struct SegmentEstimate {
     pub scatter: ExcessScatter,
 }
 
+/// When the online detector, replayed over the series, would have alarmed.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct OnlineAlarm {
+    /// MEWMA smoothing constant and threshold (set for the session false-alarm rate).
+    pub lambda: f64,
+    pub threshold: f64,
+    /// Samples used for the in-control mean before monitoring.
+    pub warmup_samples: usize,
+    /// Sample index and frame of the alarm, if it alarmed.
+    pub index: Option<usize>,
+    pub frame: Option<i64>,
+    /// Alarm frame minus the first change point's frame (negative: it alarmed before it).
+    pub delay_frames: Option<i64>,
+}
+
+impl OnlineAlarm {
+    /// Alarm frame minus a given (e.g. true) change frame.
+    pub fn delay_from(&self, change_frame: i64) -> Option<i64> {
+        self.frame.map(|f| f - change_frame)
+    }
+}
+
 /// Something the analysis wants the reader to know.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub enum DriftWarning {
@@ -380,6 +424,8 @@ pub struct DriftAnalysis {
     pub rounds: usize,
     pub change_points: Vec<ChangePoint>,
     pub segments: Vec<SegmentEstimate>,
+    /// `None` when the series is not longer than the warm-up.
+    pub online: Option<OnlineAlarm>,
     pub warnings: Vec<DriftWarning>,
 }
 
@@ -407,7 +453,7 @@ fn noise_windows(segments: &[(usize, usize)], regular: &[bool]) -> Vec<(usize, u
 pub fn analyse_drift(
     series: &DeviationSeries,
     options: &DriftOptions,
-    calibrator: &PenaltyCalibrator,
+    calibrators: &Calibrators,
 ) -> Result<DriftAnalysis, StatsError> {
     let m = options.min_segment_samples.max(1);
     if series.len() < 2 * m {
@@ -429,7 +475,7 @@ pub fn analyse_drift(
         rounds += 1;
         let windows = noise_windows(&segmentation.segments(), &regular);
         let noise = estimate_effective_noise(&model.z, model.whitening.dim, &windows, &scales);
-        let penalty = calibrator.calibrate(
+        let penalty = calibrators.penalty.calibrate(
             series.len(),
             model.whitening.dim,
             m,
@@ -460,6 +506,7 @@ pub fn analyse_drift(
     let mut long_run = model.clone();
     long_run.inflate(&noise.long_run_inflation);
     let estimates = describe(series, &model, &long_run, &segmentation, &penalty, options)?;
+    let online = replay_online(series, &model, &penalty, &estimates.0, options, &calibrators.online)?;
     Ok(DriftAnalysis {
         min_segment_samples: m,
         noise_factor: noise.max_factor(),
@@ -470,8 +517,42 @@ pub fn analyse_drift(
         noise,
         change_points: estimates.0,
         segments: estimates.1,
+        online,
         warnings,
     })
+}
+
+/// Replays the online MEWMA over the effective-whitened series `Ω̃_t^{1/2} z_t`.
+fn replay_online(
+    series: &DeviationSeries,
+    model: &EffectiveModel,
+    penalty: &PenaltyCalibration,
+    change_points: &[ChangePoint],
+    options: &DriftOptions,
+    calibrator: &OnlineCalibrator,
+) -> Result<Option<OnlineAlarm>, StatsError> {
+    let settings = calibrator.settings();
+    if series.len() <= settings.warmup {
+        return Ok(None);
+    }
+    let null = SessionNull {
+        n: series.len(),
+        dim: model.whitening.dim,
+        lag1: penalty.null_lag1,
+        min_size: options.min_segment_samples.max(1),
+    };
+    let chart = calibrator.calibrate(&null, options.false_alarm_rate)?;
+    let y = model.effective_whitened();
+    let index = session_alarm(&y, settings.warmup, &chart);
+    let frame = index.map(|i| series.frames[i]);
+    Ok(Some(OnlineAlarm {
+        lambda: chart.lambda,
+        threshold: chart.h,
+        warmup_samples: settings.warmup,
+        index,
+        frame,
+        delay_frames: frame.zip(change_points.first()).map(|(f, c)| f - c.frame),
+    }))
 }
 
 /// Segment estimates and change points of a final segmentation: gains and p-values under the
