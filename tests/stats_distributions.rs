@@ -40,7 +40,10 @@ fn chi2_quantiles_match_nist_sematech_table() {
         for (p, printed) in probs.iter().zip(row) {
             let ours = chi2_quantile(*p, dof).unwrap();
             // Printed to three decimals (NIST rounds dof 12 at 0.999 up to 32.910 from 32.9095).
-            assert!(close(ours, printed, 1e-3), "dof {dof} p {p}: {ours} vs NIST {printed}");
+            assert!(
+                close(ours, printed, 1e-3),
+                "dof {dof} p {p}: {ours} vs NIST {printed}"
+            );
         }
     }
 }
@@ -49,10 +52,19 @@ fn chi2_quantiles_match_nist_sematech_table() {
 /// probability 0.90 ... 0.999): 46.459, 43.188, 40.482, 37.485, 31.738.
 #[test]
 fn chi2_lower_tail_matches_nist_sematech_table() {
-    let rows = [(0.10, 46.459), (0.05, 43.188), (0.025, 40.482), (0.01, 37.485), (0.001, 31.738)];
+    let rows = [
+        (0.10, 46.459),
+        (0.05, 43.188),
+        (0.025, 40.482),
+        (0.01, 37.485),
+        (0.001, 31.738),
+    ];
     for (p, printed) in rows {
         let ours = chi2_quantile(p, 60.0).unwrap();
-        assert!(close(ours, printed, 1e-3), "p {p}: {ours} vs NIST {printed}");
+        assert!(
+            close(ours, printed, 1e-3),
+            "p {p}: {ours} vs NIST {printed}"
+        );
     }
 }
 
@@ -60,9 +72,16 @@ fn chi2_lower_tail_matches_nist_sematech_table() {
 fn chi2_quantiles_match_scipy_full_precision() {
     let fx = fixture();
     for row in fx["chi2_ppf"].as_array().unwrap() {
-        let (dof, p, x) = (row["dof"].as_f64().unwrap(), row["p"].as_f64().unwrap(), row["x"].as_f64().unwrap());
+        let (dof, p, x) = (
+            row["dof"].as_f64().unwrap(),
+            row["p"].as_f64().unwrap(),
+            row["x"].as_f64().unwrap(),
+        );
         let ours = chi2_quantile(p, dof).unwrap();
-        assert!(close(ours, x, 1e-9), "scipy chi2.ppf({p}, {dof}) = {x}, ours {ours}");
+        assert!(
+            close(ours, x, 1e-9),
+            "scipy chi2.ppf({p}, {dof}) = {x}, ours {ours}"
+        );
     }
 }
 
@@ -72,9 +91,16 @@ fn chi2_quantiles_match_scipy_full_precision() {
 fn chi2_upper_quantiles_match_scipy_isf_far_in_the_tail() {
     let fx = fixture();
     for row in fx["chi2_isf"].as_array().unwrap() {
-        let (dof, q, x) = (row["dof"].as_f64().unwrap(), row["q"].as_f64().unwrap(), row["x"].as_f64().unwrap());
+        let (dof, q, x) = (
+            row["dof"].as_f64().unwrap(),
+            row["q"].as_f64().unwrap(),
+            row["x"].as_f64().unwrap(),
+        );
         let ours = chi2_upper_quantile(q, dof).unwrap();
-        assert!(close(ours, x, 1e-9), "scipy chi2.isf({q}, {dof}) = {x}, ours {ours}");
+        assert!(
+            close(ours, x, 1e-9),
+            "scipy chi2.isf({q}, {dof}) = {x}, ours {ours}"
+        );
     }
 }
 
@@ -82,14 +108,24 @@ fn chi2_upper_quantiles_match_scipy_isf_far_in_the_tail() {
 fn chi2_survival_matches_scipy_and_inverts_the_quantile() {
     let fx = fixture();
     for row in fx["chi2_sf"].as_array().unwrap() {
-        let (dof, x, sf) = (row["dof"].as_f64().unwrap(), row["x"].as_f64().unwrap(), row["sf"].as_f64().unwrap());
+        let (dof, x, sf) = (
+            row["dof"].as_f64().unwrap(),
+            row["x"].as_f64().unwrap(),
+            row["sf"].as_f64().unwrap(),
+        );
         let ours = chi2_sf(x, dof).unwrap();
-        assert!(close(ours, sf, 1e-8), "scipy chi2.sf({x}, {dof}) = {sf}, ours {ours}");
+        assert!(
+            close(ours, sf, 1e-8),
+            "scipy chi2.sf({x}, {dof}) = {sf}, ours {ours}"
+        );
     }
     for dof in [1.0, 6.0, 60.0] {
         for p in [0.01, 0.3, 0.9, 0.999] {
             let x = chi2_quantile(p, dof).unwrap();
-            assert!((chi2_cdf(x, dof).unwrap() - p).abs() < 1e-12, "cdf(quantile({p})) dof {dof}");
+            assert!(
+                (chi2_cdf(x, dof).unwrap() - p).abs() < 1e-12,
+                "cdf(quantile({p})) dof {dof}"
+            );
         }
     }
 }
@@ -98,7 +134,10 @@ fn chi2_survival_matches_scipy_and_inverts_the_quantile() {
 #[test]
 fn chi2_two_sided_interval() {
     let (lo, hi) = chi2_interval(0.95, 6.0).unwrap();
-    assert!(close(lo, 1.2373, 1e-4) && close(hi, 14.4494, 1e-4), "[{lo}, {hi}]");
+    assert!(
+        close(lo, 1.2373, 1e-4) && close(hi, 14.4494, 1e-4),
+        "[{lo}, {hi}]"
+    );
 }
 
 /// F critical values: CHECK_VALUES.md section 1 (scipy, agreeing with the NIST F table
@@ -113,18 +152,27 @@ fn f_quantiles_match_tables_and_scipy() {
         (6.0, 53.0, 0.95, 2.275388),
         (2.0, 2.0, 0.95, 19.0),
     ] {
-        assert!(close(f_quantile(p, d1, d2).unwrap(), x, 1e-6), "F({d1},{d2}) at {p}");
+        assert!(
+            close(f_quantile(p, d1, d2).unwrap(), x, 1e-6),
+            "F({d1},{d2}) at {p}"
+        );
     }
     let fx = fixture();
     for row in fx["f_ppf"].as_array().unwrap() {
         let get = |k: &str| row[k].as_f64().unwrap();
         let ours = f_quantile(get("p"), get("d1"), get("d2")).unwrap();
-        assert!(close(ours, get("x"), 1e-8), "scipy f.ppf {row}: ours {ours}");
+        assert!(
+            close(ours, get("x"), 1e-8),
+            "scipy f.ppf {row}: ours {ours}"
+        );
     }
     for row in fx["f_sf"].as_array().unwrap() {
         let get = |k: &str| row[k].as_f64().unwrap();
         let ours = f_sf(get("x"), get("d1"), get("d2")).unwrap();
-        assert!(close(ours, get("sf"), 1e-8), "scipy f.sf {row}: ours {ours}");
+        assert!(
+            close(ours, get("sf"), 1e-8),
+            "scipy f.sf {row}: ours {ours}"
+        );
     }
 }
 
@@ -134,14 +182,24 @@ fn f_quantiles_match_tables_and_scipy() {
 fn normal_and_t_quantiles_match_scipy() {
     assert!(close(normal_quantile(0.95).unwrap(), 1.644854, 1e-6));
     assert!(close(normal_quantile(0.975).unwrap(), 1.959964, 1e-6));
-    assert!(close(normal_quantile(1.0 - 0.05 / 12.0).unwrap(), 2.6383, 1e-4));
+    assert!(close(
+        normal_quantile(1.0 - 0.05 / 12.0).unwrap(),
+        2.6383,
+        1e-4
+    ));
     assert!(close(t_quantile(0.95, 10.0).unwrap(), 1.8125, 1e-4));
     let fx = fixture();
     for row in fx["norm_ppf"].as_array().unwrap() {
         let (p, z) = (row["p"].as_f64().unwrap(), row["z"].as_f64().unwrap());
         let ours = normal_quantile(p).unwrap();
-        assert!((ours - z).abs() <= 1e-9 * z.abs().max(1.0), "norm.ppf({p}) = {z}, ours {ours}");
-        assert!(close(normal_sf(ours).unwrap(), 1.0 - p, 1e-8), "round trip at {p}");
+        assert!(
+            (ours - z).abs() <= 1e-9 * z.abs().max(1.0),
+            "norm.ppf({p}) = {z}, ours {ours}"
+        );
+        assert!(
+            close(normal_sf(ours).unwrap(), 1.0 - p, 1e-8),
+            "round trip at {p}"
+        );
     }
     for row in fx["t_ppf"].as_array().unwrap() {
         let get = |k: &str| row[k].as_f64().unwrap();
@@ -153,11 +211,29 @@ fn normal_and_t_quantiles_match_scipy() {
 
 #[test]
 fn invalid_arguments_are_errors_not_panics() {
-    assert!(matches!(chi2_quantile(1.0, 3.0), Err(StatsError::ProbabilityOutOfRange { .. })));
-    assert!(matches!(chi2_quantile(0.5, 0.0), Err(StatsError::InvalidParameter { .. })));
-    assert!(matches!(chi2_sf(f64::NAN, 3.0), Err(StatsError::InvalidParameter { .. })));
-    assert!(matches!(f_quantile(1.5, 2.0, 2.0), Err(StatsError::ProbabilityOutOfRange { .. })));
-    assert!(matches!(t_quantile(0.0, 5.0), Err(StatsError::ProbabilityOutOfRange { .. })));
-    assert!(matches!(normal_quantile(f64::NAN), Err(StatsError::ProbabilityOutOfRange { .. })));
+    assert!(matches!(
+        chi2_quantile(1.0, 3.0),
+        Err(StatsError::ProbabilityOutOfRange { .. })
+    ));
+    assert!(matches!(
+        chi2_quantile(0.5, 0.0),
+        Err(StatsError::InvalidParameter { .. })
+    ));
+    assert!(matches!(
+        chi2_sf(f64::NAN, 3.0),
+        Err(StatsError::InvalidParameter { .. })
+    ));
+    assert!(matches!(
+        f_quantile(1.5, 2.0, 2.0),
+        Err(StatsError::ProbabilityOutOfRange { .. })
+    ));
+    assert!(matches!(
+        t_quantile(0.0, 5.0),
+        Err(StatsError::ProbabilityOutOfRange { .. })
+    ));
+    assert!(matches!(
+        normal_quantile(f64::NAN),
+        Err(StatsError::ProbabilityOutOfRange { .. })
+    ));
     assert_eq!(chi2_sf(-1.0, 3.0), Ok(1.0));
 }

@@ -21,7 +21,12 @@ fn rows(v: &Value) -> Vec<DVector<f64>> {
     v.as_array()
         .unwrap()
         .iter()
-        .map(|r| DVector::from_iterator(r.as_array().unwrap().len(), r.as_array().unwrap().iter().map(|x| x.as_f64().unwrap())))
+        .map(|r| {
+            DVector::from_iterator(
+                r.as_array().unwrap().len(),
+                r.as_array().unwrap().iter().map(|x| x.as_f64().unwrap()),
+            )
+        })
         .collect()
 }
 
@@ -37,7 +42,11 @@ fn one_sample_hotelling_matches_johnson_wichern_exercise_5_1() {
         .collect();
     let test = hotelling_one_sample(&data, &DVector::from_vec(vec![7.0, 11.0]), 0.05).unwrap();
     assert!((test.t2 - 150.0 / 11.0).abs() < 1e-12, "T² {}", test.t2);
-    assert!((test.critical_t2 - 57.0).abs() < 1e-9, "critical {}", test.critical_t2);
+    assert!(
+        (test.critical_t2 - 57.0).abs() < 1e-9,
+        "critical {}",
+        test.critical_t2
+    );
     assert!((test.p_value - 0.1803).abs() < 5e-5, "p {}", test.p_value);
     assert!(test.t2 < test.critical_t2);
     assert_eq!((test.df1, test.df2), (2.0, 2.0));
@@ -72,8 +81,12 @@ fn hotelling_critical_values_match_f_conversion_table() {
 fn two_sample_hotelling_matches_numpy_scipy() {
     let fx = fixture();
     let reference = &fx["hotelling_two_sample"];
-    let test = hotelling_two_sample(&rows(&reference["first"]), &rows(&reference["second"]), 0.05)
-        .unwrap();
+    let test = hotelling_two_sample(
+        &rows(&reference["first"]),
+        &rows(&reference["second"]),
+        0.05,
+    )
+    .unwrap();
     let get = |k: &str| reference[k].as_f64().unwrap();
     assert!((test.t2 - get("t2")).abs() < 1e-9 * get("t2"));
     assert!((test.f - get("f")).abs() < 1e-9 * get("f"));
@@ -111,7 +124,11 @@ fn tost_matches_hand_worked_examples() {
     assert!(pass.equivalent && pass.p_value < 0.05);
     let fail = tost(0.8, 0.2, 1.0, 0.05, Some(20.0)).unwrap();
     assert!(!fail.equivalent);
-    assert!((fail.p_value - 0.164_628).abs() < 1e-5, "p {}", fail.p_value);
+    assert!(
+        (fail.p_value - 0.164_628).abs() < 1e-5,
+        "p {}",
+        fail.p_value
+    );
     // Normal version: z_.95 = 1.644854, interval 0.3 ± 0.328971.
     let z = tost(0.3, 0.2, 1.0, 0.05, None).unwrap();
     assert!((z.interval.1 - (0.3 + 0.2 * 1.644_854)).abs() < 1e-6);
@@ -126,7 +143,9 @@ fn tost_matches_hand_worked_examples() {
 fn invalid_inputs_are_errors() {
     let one = vec![DVector::from_vec(vec![1.0, 2.0])];
     assert!(hotelling_one_sample(&one, &DVector::from_vec(vec![0.0, 0.0]), 0.05).is_err());
-    let collinear: Vec<DVector<f64>> = (0..5).map(|i| DVector::from_vec(vec![i as f64, 2.0 * i as f64])).collect();
+    let collinear: Vec<DVector<f64>> = (0..5)
+        .map(|i| DVector::from_vec(vec![i as f64, 2.0 * i as f64]))
+        .collect();
     assert!(hotelling_one_sample(&collinear, &DVector::from_vec(vec![0.0, 0.0]), 0.05).is_err());
     assert!(tost(0.0, 0.0, 1.0, 0.05, None).is_err());
     assert!(tost(0.0, 1.0, 1.0, 0.6, None).is_err());

@@ -506,7 +506,14 @@ pub fn analyse_drift(
     let mut long_run = model.clone();
     long_run.inflate(&noise.long_run_inflation);
     let estimates = describe(series, &model, &long_run, &segmentation, &penalty, options)?;
-    let online = replay_online(series, &model, &penalty, &estimates.0, options, &calibrators.online)?;
+    let online = replay_online(
+        series,
+        &model,
+        &penalty,
+        &estimates.0,
+        options,
+        &calibrators.online,
+    )?;
     Ok(DriftAnalysis {
         min_segment_samples: m,
         noise_factor: noise.max_factor(),

@@ -3,7 +3,9 @@
 
 use nalgebra::{DMatrix, DVector, Matrix6, Vector6};
 
-use super::distributions::{chi2_sf, f_quantile, f_sf, normal_quantile, normal_sf, t_quantile, t_sf};
+use super::distributions::{
+    chi2_sf, f_quantile, f_sf, normal_quantile, normal_sf, t_quantile, t_sf,
+};
 use super::information::information_sum_spectrum;
 use super::{check_positive, check_probability, StatsError};
 use crate::tol;
@@ -22,7 +24,9 @@ pub struct HotellingTest {
 }
 
 fn sample_mean(data: &[DVector<f64>]) -> DVector<f64> {
-    data.iter().fold(DVector::zeros(data[0].len()), |acc, x| acc + x) / data.len() as f64
+    data.iter()
+        .fold(DVector::zeros(data[0].len()), |acc, x| acc + x)
+        / data.len() as f64
 }
 
 /// Unbiased sample covariance (divisor `n − 1`).
@@ -226,9 +230,8 @@ pub fn wald_difference(
             what: "estimate",
         });
     }
-    let outside = |c: &Matrix6<f64>| {
-        Matrix6::identity() - information_sum_spectrum(c).range_projector()
-    };
+    let outside =
+        |c: &Matrix6<f64>| Matrix6::identity() - information_sum_spectrum(c).range_projector();
     // Directions outside either range span the complement of the intersection.
     let complement = information_sum_spectrum(&(outside(cov_a) + outside(cov_b)));
     let common = Matrix6::identity() - complement.range_projector();
@@ -239,7 +242,9 @@ pub fn wald_difference(
     Ok(WaldTest {
         statistic,
         dof,
-        p_value: (dof > 0).then(|| chi2_sf(statistic, dof as f64)).transpose()?,
+        p_value: (dof > 0)
+            .then(|| chi2_sf(statistic, dof as f64))
+            .transpose()?,
     })
 }
 
@@ -290,8 +295,8 @@ pub fn tost(
         None => normal_sf(t),
     };
     // H0: θ <= −Δ is rejected for large (est + Δ)/se, H0: θ >= Δ for large (Δ − est)/se.
-    let p_value = sf((estimate + margin) / standard_error)?
-        .max(sf((margin - estimate) / standard_error)?);
+    let p_value =
+        sf((estimate + margin) / standard_error)?.max(sf((margin - estimate) / standard_error)?);
     let interval = (estimate - q * standard_error, estimate + q * standard_error);
     Ok(Equivalence {
         estimate,

@@ -42,9 +42,9 @@ impl TabularCusum {
     }
 
     /// Index of the first sample at which the chart signals, if any.
-    pub fn first_alarm(&self, z: &[f64]) -> Option<usize> {
+    pub fn first_alarm(&self, z: impl IntoIterator<Item = f64>) -> Option<usize> {
         let (mut upper, mut lower) = (0.0f64, 0.0f64);
-        z.iter().position(|&v| {
+        z.into_iter().position(|v| {
             upper = (upper + v - self.k).max(0.0);
             lower = (lower - v - self.k).max(0.0);
             upper > self.h || lower > self.h
@@ -89,10 +89,10 @@ impl Mewma {
     }
 
     /// Index of the first sample at which the chart signals, if any.
-    pub fn first_alarm(&self, x: &[Vector6<f64>]) -> Option<usize> {
+    pub fn first_alarm(&self, x: impl IntoIterator<Item = Vector6<f64>>) -> Option<usize> {
         let scale = (2.0 - self.lambda) / self.lambda;
         let mut z = Vector6::zeros();
-        x.iter().position(|v| {
+        x.into_iter().position(|v| {
             z = v * self.lambda + z * (1.0 - self.lambda);
             scale * z.norm_squared() > self.h
         })
@@ -133,8 +133,9 @@ pub fn session_alarm(y: &[Vector6<f64>], warmup: usize, chart: &Mewma) -> Option
         return None;
     }
     let mean = y[..warmup].iter().sum::<Vector6<f64>>() / warmup as f64;
-    let centred: Vec<Vector6<f64>> = y[warmup..].iter().map(|v| v - mean).collect();
-    chart.first_alarm(&centred).map(|i| i + warmup)
+    chart
+        .first_alarm(y[warmup..].iter().map(|v| v - mean))
+        .map(|i| i + warmup)
 }
 
 /// The clean sessions the threshold is simulated on: AR(1) noise of coefficient `lag1`,
@@ -191,7 +192,11 @@ impl OnlineCalibrator {
     /// session maximum of `T²` over simulated clean sessions ([`SessionNull`]). A session longer
     /// than `max_simulated_samples` is simulated at that length with the rate scaled by
     /// `n_sim/n` (a constant per-sample alarm hazard, i.e. a geometric run length).
-    pub fn calibrate(&self, null: &SessionNull, false_alarm_rate: f64) -> Result<Mewma, StatsError> {
+    pub fn calibrate(
+        &self,
+        null: &SessionNull,
+        false_alarm_rate: f64,
+    ) -> Result<Mewma, StatsError> {
         check_probability(false_alarm_rate)?;
         let settings = &self.settings;
         if null.n <= settings.warmup || settings.warmup == 0 || !(1..=6).contains(&null.dim) {
@@ -202,7 +207,9 @@ impl OnlineCalibrator {
             });
         }
         let simulated = SessionNull {
-            n: null.n.min(settings.max_simulated_samples.max(settings.warmup + 1)),
+            n: null
+                .n
+                .min(settings.max_simulated_samples.max(settings.warmup + 1)),
             ..*null
         };
         let maxima = self.null_maxima(&simulated);
