@@ -480,21 +480,26 @@ pub fn analyse_drift(
             model.whitening.dim,
             m,
             options.false_alarm_rate,
-            noise.lag1_upper,
+            // Before any segment is known an undetected shift would inflate the residual
+            // autocorrelation (and with it the penalty), so the first round uses the robust one.
+            if rounds == 1 {
+                noise.lag1_robust
+            } else {
+                noise.lag1
+            },
         )?;
         model.inflate(&noise.inflation);
         let next = pelt(&model.cost()?, penalty.penalty, m)?;
-        let settled = next.breakpoints == segmentation.breakpoints;
+        // The first round only finds the segments the precise lag-1 estimate needs.
+        let settled = rounds > 1 && next.breakpoints == segmentation.breakpoints;
         segmentation = next;
         if settled || rounds >= options.max_rounds {
             break (noise, penalty, settled);
         }
     };
     let mut warnings = Vec::new();
-    if null_lag1(noise.lag1_upper).1 {
-        warnings.push(DriftWarning::NoiseTooCorrelated {
-            lag1: noise.lag1_autocorrelation,
-        });
+    if null_lag1(noise.lag1).1 {
+        warnings.push(DriftWarning::NoiseTooCorrelated { lag1: noise.lag1 });
     }
     if !converged {
         warnings.push(DriftWarning::NotConverged { rounds });

@@ -12,15 +12,18 @@
 //! This is the overlapping Allan variance (IEEE Std 1139-2008; Allan 1966) in matrix form. For
 //! white noise `G(τ) = I` at every scale; for AR(1) noise with coefficient ρ it grows towards the
 //! long-run variance ratio `(1+ρ)/(1−ρ)`; for a vibration of period P it peaks near `τ ≈ P/2`.
-//! The inflation used by the tests is, per principal direction `u_j` of the pooled `G`, the
-//! largest `u_jᵀ G(τ) u_j` over the scales from the minimum segment length up to a fraction of
-//! the series, floored at 1 (the predicted covariance is never made smaller):
-//! `Γ = U diag(κ_j) Uᵀ`, `κ_j = max(1, max_τ u_jᵀ G(τ) u_j)`.
+//! The inflation used by the change-point search is, per principal direction `u_j` of the pooled
+//! `G`, the largest `u_jᵀ G(τ) u_j` over the scales from the minimum segment length up to a
+//! fraction of the series: `Γ = U diag(κ_j) Uᵀ`, `κ_j = max_τ u_jᵀ G(τ) u_j`. It is a studentiser:
+//! the penalty is calibrated for exactly this estimator, so it is not floored (a floor would make
+//! white noise a special case of the calibration). For intervals a long-run version is used,
+//! floored at 1 (never more precise than the per-frame covariances claim).
 //! Windows are taken inside given segments only, so known mean shifts do not inflate it.
 //!
-//! The same pass measures the lag-1 autocorrelation of each principal direction from a robust
-//! semivariogram: the penalty calibration simulates AR(1) noise with that coefficient so that the
-//! estimation error of `Γ` under correlated noise is accounted for (`penalty` module).
+//! The same pass measures the lag-1 autocorrelation of each principal direction (of the residuals
+//! about the segment means, and a shift-robust version from a semivariogram): the penalty
+//! calibration simulates AR(1) noise with that coefficient so that the estimation error of `Γ`
+//! under correlated noise is accounted for (`penalty` module).
 
 use nalgebra::{Matrix6, Vector6};
 
@@ -85,19 +88,21 @@ pub struct EffectiveNoise {
     pub long_run_factors: Vector6<f64>,
     /// Principal directions `u_j` (columns) in the whitened coordinates.
     pub directions: Matrix6<f64>,
-    /// `κ_j >= 1` per direction; zero for inactive coordinates.
+    /// `κ_j` per direction; zero for inactive coordinates.
     pub factors: Vector6<f64>,
-    /// The scales (samples) at which each `κ_j` was attained; zero where the floor of 1 applied.
+    /// The scales (samples) at which each `κ_j` was attained.
     pub scale_of_max: [usize; 6],
     /// The scales examined.
     pub scales: Vec<usize>,
     /// Number of windows at the smallest scale (how much data the estimate rests on).
     pub windows: usize,
-    /// Largest lag-1 autocorrelation over the principal directions (0 when unknown).
-    pub lag1_autocorrelation: f64,
-    /// The same plus its small-sample bias `(1+3ρ)/N` (Kendall 1954; `N` lag-1 pairs), the
-    /// value the penalty calibration uses.
-    pub lag1_upper: f64,
+    /// Largest lag-1 autocorrelation over the principal directions of the residuals about each
+    /// segment's mean, corrected for its small-sample bias `−(1+3ρ)/N` (Kendall 1954; `N` lag-1
+    /// pairs). Precise (standard error about `1/√N`), but an undeclared mean shift inflates it.
+    pub lag1: f64,
+    /// A shift-robust version from the semivariogram (see `lag1_per_direction`), noisier; used
+    /// before any segment is known.
+    pub lag1_robust: f64,
 }
 
 impl EffectiveNoise {
@@ -113,8 +118,8 @@ impl EffectiveNoise {
             scale_of_max: [0; 6],
             scales: Vec::new(),
             windows: 0,
-            lag1_autocorrelation: 0.0,
-            lag1_upper: 0.0,
+            lag1: 0.0,
+            lag1_robust: 0.0,
         }
     }
 
@@ -209,7 +214,6 @@ pub fn estimate_effective_noise(
         if u.rows(dim, 6 - dim).norm() > 0.5 {
             continue; // an inactive coordinate (zero in every sample)
         }
-        factors[j] = 1.0;
         for (tau, g, _) in &estimates {
             let k = u.dot(&(g * u));
             if k > factors[j] {
@@ -222,15 +226,14 @@ pub fn estimate_effective_noise(
     let far_lags: Vec<usize> = (2..=4)
         .map(|k| (k * scales.min_scale).min(z.len() / 4).max(2))
         .collect();
-    let lag1 = lag1_per_direction(z, segments, &directions, &factors, &far_lags);
-    let pairs: usize = segments
-        .iter()
-        .map(|(a, b)| (b - a).saturating_sub(1))
-        .sum();
-    let bias = |rho: f64| (1.0 + 3.0 * rho) / pairs.max(1) as f64;
-    let lag1_autocorrelation = lag1.max();
+    let robust = lag1_per_direction(z, segments, &directions, &factors, &far_lags);
+    let (lag1, pairs) = residual_lag1(z, segments, &directions, &factors);
+    let corrected = |rho: f64| (rho + (1.0 + 3.0 * rho.max(0.0)) / pairs.max(1) as f64).min(1.0);
     let long_run = Vector6::from_fn(|j, _| {
-        factors[j].max(long_run_extrapolation(
+        if factors[j] <= 0.0 {
+            return 0.0;
+        }
+        factors[j].max(1.0).max(long_run_extrapolation(
             &estimates,
             &directions.column(j).into(),
             lag1[j],
@@ -245,9 +248,43 @@ pub fn estimate_effective_noise(
         scale_of_max,
         scales: estimates.iter().map(|(t, _, _)| *t).collect(),
         windows: estimates[0].2,
-        lag1_autocorrelation,
-        lag1_upper: (lag1_autocorrelation + bias(lag1_autocorrelation)).min(1.0),
+        lag1: corrected(lag1.max()),
+        lag1_robust: corrected(robust.max()),
     }
+}
+
+/// Lag-1 autocorrelation of each active principal direction of the residuals about each
+/// segment's mean (pairs inside segments), and the number of pairs.
+fn residual_lag1(
+    z: &[Vector6<f64>],
+    segments: &[(usize, usize)],
+    directions: &Matrix6<f64>,
+    factors: &Vector6<f64>,
+) -> (Vector6<f64>, usize) {
+    let mut lag0 = Vector6::<f64>::zeros();
+    let mut lag1 = Vector6::<f64>::zeros();
+    let mut pairs = 0;
+    for &(start, end) in segments.iter().filter(|(a, b)| b - a >= 2) {
+        let mean = z[start..end].iter().sum::<Vector6<f64>>() / (end - start) as f64;
+        let residual = |t: usize| directions.transpose() * (z[t] - mean);
+        let mut previous = residual(start);
+        lag0 += previous.component_mul(&previous);
+        for t in start + 1..end {
+            let current = residual(t);
+            lag0 += current.component_mul(&current);
+            lag1 += current.component_mul(&previous);
+            previous = current;
+            pairs += 1;
+        }
+    }
+    let rho = Vector6::from_fn(|j, _| {
+        if factors[j] > 0.0 && lag0[j] > 0.0 {
+            (lag1[j] / lag0[j]).clamp(0.0, 1.0)
+        } else {
+            0.0
+        }
+    });
+    (rho, pairs)
 }
 
 /// The long-run variance of direction `u` extrapolated from the large scales: the mean over the
