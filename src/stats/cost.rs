@@ -16,6 +16,14 @@ pub trait SegmentCost {
 
     /// The cost of the samples `start..end` (`start < end <= n_samples()`).
     fn cost(&self, start: usize, end: usize) -> f64;
+
+    /// `out[i] = cost(starts[i], end)`: the inner loop of the search, which a cost may specialise
+    /// (the results must equal [`cost`](Self::cost) exactly).
+    fn costs_to(&self, starts: &[usize], end: usize, out: &mut [f64]) {
+        for (o, &start) in out.iter_mut().zip(starts) {
+            *o = self.cost(start, end);
+        }
+    }
 }
 
 /// Sum of squared deviations from the segment mean over all columns, as the Python package
@@ -59,20 +67,10 @@ impl L2Cost {
             });
         }
         let n = signal.len() / dim;
-        let rows = centred_prefix_rows(signal, dim);
         let layout = if dim <= PACKED_COLUMNS {
-            Layout::Packed(
-                rows.chunks_exact(dim + 1)
-                    .map(|r| {
-                        let mut packed = [0.0; 8];
-                        packed[..dim].copy_from_slice(&r[..dim]);
-                        packed[PACKED_COLUMNS] = r[dim];
-                        packed
-                    })
-                    .collect(),
-            )
+            Layout::Packed(packed_prefix_rows(signal, dim))
         } else {
-            Layout::Wide(rows)
+            Layout::Wide(centred_prefix_rows(signal, dim))
         };
         Ok(Self { n, dim, layout })
     }
@@ -89,14 +87,38 @@ impl L2Cost {
     }
 }
 
-/// Prefix sums of the column-centred signal: `n + 1` rows of `dim` sums and the sum of squares.
-fn centred_prefix_rows(signal: &[f64], dim: usize) -> Vec<f64> {
-    let n = signal.len() / dim;
+fn column_means(signal: &[f64], dim: usize) -> Vec<f64> {
+    let n = (signal.len() / dim).max(1) as f64;
     let mut means = vec![0.0; dim];
     for row in signal.chunks_exact(dim) {
         means.iter_mut().zip(row).for_each(|(m, v)| *m += v);
     }
-    means.iter_mut().for_each(|m| *m /= n.max(1) as f64);
+    means.iter_mut().for_each(|m| *m /= n);
+    means
+}
+
+/// Prefix sums of the column-centred signal in 64-byte rows: sums in columns `0..dim`, the sum
+/// of squares in column 7.
+fn packed_prefix_rows(signal: &[f64], dim: usize) -> Vec<[f64; 8]> {
+    let means = column_means(signal, dim);
+    let mut rows = Vec::with_capacity(signal.len() / dim + 1);
+    let mut acc = [0.0; 8];
+    rows.push(acc);
+    for row in signal.chunks_exact(dim) {
+        for j in 0..dim {
+            let centred = row[j] - means[j];
+            acc[j] += centred;
+            acc[PACKED_COLUMNS] += centred * centred;
+        }
+        rows.push(acc);
+    }
+    rows
+}
+
+/// Prefix sums of the column-centred signal: `n + 1` rows of `dim` sums and the sum of squares.
+fn centred_prefix_rows(signal: &[f64], dim: usize) -> Vec<f64> {
+    let n = signal.len() / dim;
+    let means = column_means(signal, dim);
     let stride = dim + 1;
     let mut rows = vec![0.0; (n + 1) * stride];
     for (i, row) in signal.chunks_exact(dim).enumerate() {
@@ -120,32 +142,50 @@ impl SegmentCost for L2Cost {
 
     #[inline]
     fn cost(&self, start: usize, end: usize) -> f64 {
-        let len = end - start;
-        if len <= 1 {
-            // A single sample is its own mean: exactly zero, as ruptures computes it.
-            return 0.0;
-        }
-        let (between, squares) = match &self.layout {
-            Layout::Packed(rows) => {
-                let (lo, hi) = (&rows[start], &rows[end]);
-                let mut between = 0.0;
-                for j in 0..PACKED_COLUMNS {
-                    let s = hi[j] - lo[j];
-                    between += s * s;
-                }
-                (between, hi[PACKED_COLUMNS] - lo[PACKED_COLUMNS])
-            }
+        match &self.layout {
+            Layout::Packed(rows) => packed_cost(&rows[start], &rows[end], end - start),
             Layout::Wide(rows) => {
                 let stride = self.dim + 1;
                 let lo = &rows[start * stride..(start + 1) * stride];
                 let hi = &rows[end * stride..(end + 1) * stride];
-                let between = (0..self.dim)
-                    .map(|j| (hi[j] - lo[j]) * (hi[j] - lo[j]))
-                    .sum();
-                (between, hi[self.dim] - lo[self.dim])
+                let between: f64 = (0..self.dim).map(|j| (hi[j] - lo[j]).powi(2)).sum();
+                let within = (hi[self.dim] - lo[self.dim]) - between / (end - start) as f64;
+                if end - start <= 1 {
+                    0.0
+                } else {
+                    within.max(0.0)
+                }
             }
+        }
+    }
+
+    fn costs_to(&self, starts: &[usize], end: usize, out: &mut [f64]) {
+        let Layout::Packed(rows) = &self.layout else {
+            for (o, &start) in out.iter_mut().zip(starts) {
+                *o = self.cost(start, end);
+            }
+            return;
         };
-        (squares - between / len as f64).max(0.0)
+        let hi = &rows[end];
+        for (o, &start) in out.iter_mut().zip(starts) {
+            *o = packed_cost(&rows[start], hi, end - start);
+        }
+    }
+}
+
+/// The L2 cost from two packed prefix rows. The sum of squares is added as a fixed tree, which
+/// keeps the dependency chain short (several candidates are evaluated in flight).
+#[inline(always)]
+fn packed_cost(lo: &[f64; 8], hi: &[f64; 8], len: usize) -> f64 {
+    let d: [f64; 8] = std::array::from_fn(|j| hi[j] - lo[j]);
+    let between = ((d[0] * d[0] + d[1] * d[1]) + (d[2] * d[2] + d[3] * d[3]))
+        + ((d[4] * d[4] + d[5] * d[5]) + d[6] * d[6]);
+    let within = (d[PACKED_COLUMNS] - between / len as f64).max(0.0);
+    // A single sample is its own mean: exactly zero, as ruptures computes it.
+    if len <= 1 {
+        0.0
+    } else {
+        within
     }
 }
 

@@ -248,11 +248,11 @@ impl EffectiveModel {
             let y: Vec<Vector6<f64>> = self.z.iter().map(|z| map * z).collect();
             Ok(EffectiveCost::Common(L2Cost::from_vectors(&y)?))
         } else {
-            Ok(EffectiveCost::PerFrame(InformationCost::new(
+            Ok(EffectiveCost::PerFrame(Box::new(InformationCost::new(
                 &self.z,
                 &self.effective,
                 self.whitening.dim,
-            )?))
+            )?)))
         }
     }
 
@@ -284,7 +284,7 @@ impl EffectiveModel {
 #[derive(Debug, Clone)]
 pub enum EffectiveCost {
     Common(L2Cost),
-    PerFrame(InformationCost),
+    PerFrame(Box<InformationCost>),
 }
 
 impl SegmentCost for EffectiveCost {
@@ -433,17 +433,15 @@ pub struct DriftAnalysis {
 fn noise_windows(segments: &[(usize, usize)], regular: &[bool]) -> Vec<(usize, usize)> {
     let mut out = Vec::new();
     for &(start, end) in segments {
+        let breaks = (start..end)
+            .filter(|&t| !regular[t])
+            .chain(std::iter::once(end));
         let mut run_start = start;
-        for t in start..end {
-            if !regular[t] {
-                if t > run_start {
-                    out.push((run_start, t));
-                }
-                run_start = t + 1;
+        for stop in breaks {
+            if stop > run_start {
+                out.push((run_start, stop));
             }
-        }
-        if end > run_start {
-            out.push((run_start, end));
+            run_start = stop + 1;
         }
     }
     out

@@ -165,12 +165,15 @@ fn null_session_maximum(null: &SessionNull, settings: &OnlineSettings, seed: u64
     chart.statistics(&centred).into_iter().fold(0.0, f64::max)
 }
 
+/// Length, dimension, AR(1) coefficient bits and minimum segment of a simulated null.
+type NullKey = (usize, usize, u64, usize);
+
 /// Calibrates session MEWMA thresholds ([`calibrate`](Self::calibrate)) and remembers each
 /// simulated null distribution, so that sessions of the same length and noise class share one.
 #[derive(Debug, Default)]
 pub struct OnlineCalibrator {
     settings: OnlineSettings,
-    cache: Mutex<HashMap<(usize, usize, u64, usize), Arc<Vec<f64>>>>,
+    cache: Mutex<HashMap<NullKey, Arc<Vec<f64>>>>,
 }
 
 impl OnlineCalibrator {
