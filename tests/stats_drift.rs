@@ -2,12 +2,11 @@
 //! correlated noise and vibration, detection with intervals that cover the truth, rank-deficient
 //! frames, and the online alarm.
 
-use mountdrift::stats::drift::{
-    analyse_drift, Calibrators, DeviationSample, DeviationSeries, DriftOptions, DriftWarning,
-};
+use mountdrift::stats::drift::{analyse_drift, Calibrators, DriftOptions, DriftWarning};
 use mountdrift::stats::online::{OnlineCalibrator, OnlineSettings};
 use mountdrift::stats::penalty::{stream_seed, CalibrationSettings, PenaltyCalibrator};
 use mountdrift::stats::segments::LocationSettings;
+use mountdrift::stats::series::{DeviationSample, DeviationSeries};
 use nalgebra::{Matrix6, Vector6};
 use rand::{RngExt, SeedableRng};
 use rand_distr::{Distribution, StandardNormal};
