@@ -129,7 +129,8 @@ pub struct DriftAnalysis {
     pub penalty: PenaltyCalibration,
     #[serde(skip)]
     pub noise: EffectiveNoise,
-    /// Largest noise inflation factor (1: the covariances explain the scatter).
+    /// Largest long-run noise inflation (variance) factor over the principal directions, the
+    /// one the intervals use: 1 when the per-frame covariances explain the scatter of means.
     pub noise_factor: f64,
     /// Number of observable whitened directions.
     pub dim: usize,
@@ -233,7 +234,7 @@ pub fn analyse_drift(
     )?;
     Ok(DriftAnalysis {
         min_segment_samples: m,
-        noise_factor: noise.max_factor(),
+        noise_factor: noise.long_run_factors.max(),
         dim: model.whitening.dim,
         common_information: model.common,
         rounds,

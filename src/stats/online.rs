@@ -121,7 +121,7 @@ impl Default for OnlineSettings {
             warmup: 50,
             runs: 1000,
             seed: 0x6f6e_6c69_6e65,
-            max_simulated_samples: 20_000,
+            max_simulated_samples: 4000,
         }
     }
 }
