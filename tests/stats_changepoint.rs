@@ -275,3 +275,48 @@ fn information_cost_with_identity_weights_is_l2_cost() {
         assert!((w - p).abs() <= 1e-10 * p.max(1.0), "[{a},{b}): {w} vs {p}");
     }
 }
+
+/// The 2000 x 6 signal timed by scripts/bench_ruptures.py (defined by integer formulas there and
+/// in benches/changepoint.rs): ruptures 1.1.10 breakpoints for Pelt(l2) at pen 50 with its
+/// defaults (min_size 2, jump 5) and with the exact grid, reproduced by both our searches.
+#[test]
+fn benchmark_signal_matches_ruptures() {
+    let text = std::fs::read_to_string(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/fixtures/ruptures/bench_2000x6.json"
+    ))
+    .expect("fixture fixtures/ruptures/bench_2000x6.json (run scripts/bench_ruptures.py)");
+    let fx: serde_json::Value = serde_json::from_str(&text).unwrap();
+    let mut signal = Vec::with_capacity(12_000);
+    for i in 0..2000i64 {
+        let level = if i < 600 {
+            0.0
+        } else if i < 1300 {
+            3.0
+        } else {
+            1.0
+        };
+        for j in 0..6i64 {
+            let a = ((37 * i + 13 * j) % 11 - 5) as f64 / 5.0;
+            let b = ((53 * i + 7 * j) % 7 - 3) as f64 / 10.0;
+            signal.push(level * (1 + j) as f64 / 3.0 + a + b);
+        }
+    }
+    let checksum: f64 = signal.iter().sum();
+    assert!((checksum - fx["checksum"].as_f64().unwrap()).abs() < 1e-6);
+    let cost = L2Cost::new(&signal, 6).unwrap();
+    for run in fx["runs"].as_array().unwrap() {
+        let expected: Vec<usize> = serde_json::from_value(run["breakpoints"].clone()).unwrap();
+        let (min_size, jump) = (
+            run["min_size"].as_u64().unwrap() as usize,
+            run["jump"].as_u64().unwrap() as usize,
+        );
+        assert_eq!(
+            pelt_ruptures(&cost, 50.0, min_size, jump).unwrap(),
+            expected
+        );
+        if jump == 1 {
+            assert_eq!(pelt(&cost, 50.0, min_size).unwrap().breakpoints, expected);
+        }
+    }
+}

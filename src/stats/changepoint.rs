@@ -99,9 +99,10 @@ impl Candidates {
 
     /// Evaluates `F(t) + C(t, end) + β` for every candidate; returns the first minimum.
     fn evaluate<C: SegmentCost>(&mut self, cost: &C, end: usize, penalty: f64) -> (f64, usize) {
+        cost.costs_to(&self.starts, end, &mut self.totals);
         let (mut min_total, mut argmin) = (f64::INFINITY, 0);
         for ((&start, &base), total) in self.starts.iter().zip(&self.base).zip(&mut self.totals) {
-            *total = base + cost.cost(start, end) + penalty;
+            *total = base + *total + penalty;
             if *total < min_total {
                 (min_total, argmin) = (*total, start);
             }

@@ -4,7 +4,7 @@
 //! `start..end` under one constant mean. Both costs here never increase when a segment is split,
 //! which is what makes PELT's pruning with `K = 0` exact (Killick et al. 2012, section 3).
 
-use nalgebra::{Cholesky, Matrix6, Vector6};
+use nalgebra::{Matrix6, Vector6};
 
 use super::information::information_sum_spectrum;
 use super::StatsError;
@@ -16,6 +16,14 @@ pub trait SegmentCost {
 
     /// The cost of the samples `start..end` (`start < end <= n_samples()`).
     fn cost(&self, start: usize, end: usize) -> f64;
+
+    /// `out[i] = cost(starts[i], end)`: the inner loop of the search, which a cost may specialise
+    /// (the results must equal [`cost`](Self::cost) exactly).
+    fn costs_to(&self, starts: &[usize], end: usize, out: &mut [f64]) {
+        for (o, &start) in out.iter_mut().zip(starts) {
+            *o = self.cost(start, end);
+        }
+    }
 }
 
 /// Sum of squared deviations from the segment mean over all columns, as the Python package
@@ -59,20 +67,10 @@ impl L2Cost {
             });
         }
         let n = signal.len() / dim;
-        let rows = centred_prefix_rows(signal, dim);
         let layout = if dim <= PACKED_COLUMNS {
-            Layout::Packed(
-                rows.chunks_exact(dim + 1)
-                    .map(|r| {
-                        let mut packed = [0.0; 8];
-                        packed[..dim].copy_from_slice(&r[..dim]);
-                        packed[PACKED_COLUMNS] = r[dim];
-                        packed
-                    })
-                    .collect(),
-            )
+            Layout::Packed(packed_prefix_rows(signal, dim))
         } else {
-            Layout::Wide(rows)
+            Layout::Wide(centred_prefix_rows(signal, dim))
         };
         Ok(Self { n, dim, layout })
     }
@@ -89,14 +87,38 @@ impl L2Cost {
     }
 }
 
-/// Prefix sums of the column-centred signal: `n + 1` rows of `dim` sums and the sum of squares.
-fn centred_prefix_rows(signal: &[f64], dim: usize) -> Vec<f64> {
-    let n = signal.len() / dim;
+fn column_means(signal: &[f64], dim: usize) -> Vec<f64> {
+    let n = (signal.len() / dim).max(1) as f64;
     let mut means = vec![0.0; dim];
     for row in signal.chunks_exact(dim) {
         means.iter_mut().zip(row).for_each(|(m, v)| *m += v);
     }
-    means.iter_mut().for_each(|m| *m /= n.max(1) as f64);
+    means.iter_mut().for_each(|m| *m /= n);
+    means
+}
+
+/// Prefix sums of the column-centred signal in 64-byte rows: sums in columns `0..dim`, the sum
+/// of squares in column 7.
+fn packed_prefix_rows(signal: &[f64], dim: usize) -> Vec<[f64; 8]> {
+    let means = column_means(signal, dim);
+    let mut rows = Vec::with_capacity(signal.len() / dim + 1);
+    let mut acc = [0.0; 8];
+    rows.push(acc);
+    for row in signal.chunks_exact(dim) {
+        for j in 0..dim {
+            let centred = row[j] - means[j];
+            acc[j] += centred;
+            acc[PACKED_COLUMNS] += centred * centred;
+        }
+        rows.push(acc);
+    }
+    rows
+}
+
+/// Prefix sums of the column-centred signal: `n + 1` rows of `dim` sums and the sum of squares.
+fn centred_prefix_rows(signal: &[f64], dim: usize) -> Vec<f64> {
+    let n = signal.len() / dim;
+    let means = column_means(signal, dim);
     let stride = dim + 1;
     let mut rows = vec![0.0; (n + 1) * stride];
     for (i, row) in signal.chunks_exact(dim).enumerate() {
@@ -120,32 +142,50 @@ impl SegmentCost for L2Cost {
 
     #[inline]
     fn cost(&self, start: usize, end: usize) -> f64 {
-        let len = end - start;
-        if len <= 1 {
-            // A single sample is its own mean: exactly zero, as ruptures computes it.
-            return 0.0;
-        }
-        let (between, squares) = match &self.layout {
-            Layout::Packed(rows) => {
-                let (lo, hi) = (&rows[start], &rows[end]);
-                let mut between = 0.0;
-                for j in 0..PACKED_COLUMNS {
-                    let s = hi[j] - lo[j];
-                    between += s * s;
-                }
-                (between, hi[PACKED_COLUMNS] - lo[PACKED_COLUMNS])
-            }
+        match &self.layout {
+            Layout::Packed(rows) => packed_cost(&rows[start], &rows[end], end - start),
             Layout::Wide(rows) => {
                 let stride = self.dim + 1;
                 let lo = &rows[start * stride..(start + 1) * stride];
                 let hi = &rows[end * stride..(end + 1) * stride];
-                let between = (0..self.dim)
-                    .map(|j| (hi[j] - lo[j]) * (hi[j] - lo[j]))
-                    .sum();
-                (between, hi[self.dim] - lo[self.dim])
+                let between: f64 = (0..self.dim).map(|j| (hi[j] - lo[j]).powi(2)).sum();
+                let within = (hi[self.dim] - lo[self.dim]) - between / (end - start) as f64;
+                if end - start <= 1 {
+                    0.0
+                } else {
+                    within.max(0.0)
+                }
             }
+        }
+    }
+
+    fn costs_to(&self, starts: &[usize], end: usize, out: &mut [f64]) {
+        let Layout::Packed(rows) = &self.layout else {
+            for (o, &start) in out.iter_mut().zip(starts) {
+                *o = self.cost(start, end);
+            }
+            return;
         };
-        (squares - between / len as f64).max(0.0)
+        let hi = &rows[end];
+        for (o, &start) in out.iter_mut().zip(starts) {
+            *o = packed_cost(&rows[start], hi, end - start);
+        }
+    }
+}
+
+/// The L2 cost from two packed prefix rows. The sum of squares is added as a fixed tree, which
+/// keeps the dependency chain short (several candidates are evaluated in flight).
+#[inline(always)]
+fn packed_cost(lo: &[f64; 8], hi: &[f64; 8], len: usize) -> f64 {
+    let d: [f64; 8] = std::array::from_fn(|j| hi[j] - lo[j]);
+    let between = ((d[0] * d[0] + d[1] * d[1]) + (d[2] * d[2] + d[3] * d[3]))
+        + ((d[4] * d[4] + d[5] * d[5]) + d[6] * d[6]);
+    let within = (d[PACKED_COLUMNS] - between / len as f64).max(0.0);
+    // A single sample is its own mean: exactly zero, as ruptures computes it.
+    if len <= 1 {
+        0.0
+    } else {
+        within
     }
 }
 
@@ -321,21 +361,101 @@ impl SegmentCost for InformationCost {
     }
 
     fn cost(&self, start: usize, end: usize) -> f64 {
-        let (a, b, q) = self.segment_sums(start, end);
-        let explained = match Cholesky::new(a + self.padding) {
-            Some(chol) if well_conditioned(&chol) => chol.l().solve_lower_triangular(&b),
-            _ => None,
+        let (lo, hi) = (&self.info_sums[start], &self.info_sums[end]);
+        let mut packed: [f64; 21] = std::array::from_fn(|k| hi[k] - lo[k]);
+        for (k, &(r, c)) in UPPER.iter().enumerate() {
+            if r == c {
+                packed[k] += self.padding[(r, r)];
+            }
         }
-        .map(|v| v.norm_squared())
-        .unwrap_or_else(|| b.dot(&(information_sum_spectrum(&a).pseudo_inverse() * b)));
+        let b = self.weighted_sums[end] - self.weighted_sums[start];
+        let q = self.square_sums[end] - self.square_sums[start];
+        let explained = ldl_quadratic(&packed, &b).unwrap_or_else(|| {
+            let (a, _, _) = self.segment_sums(start, end);
+            b.dot(&(information_sum_spectrum(&a).pseudo_inverse() * b))
+        });
         (q - explained).max(0.0)
     }
 }
 
-/// A Cholesky factor whose smallest pivot is not negligible against the largest: otherwise the
-/// matrix is singular up to rounding and the pseudo-inverse must be used instead.
-fn well_conditioned(chol: &Cholesky<f64, nalgebra::U6>) -> bool {
-    let diag = chol.l_dirty().diagonal();
-    let (lo, hi) = (diag.min(), diag.max());
-    lo * lo > crate::tol::INFORMATION_SUM_RANK_REL * hi * hi
+/// Position of entry `(i, j)`, `i <= j`, in the packed upper triangle of [`UPPER`].
+const fn packed_index(i: usize, j: usize) -> usize {
+    i * 6 - i * (i + 1) / 2 + j
+}
+
+/// `bᵀ A⁻¹ b` for a symmetric 6x6 matrix given as its packed upper triangle, by the `LDLᵀ`
+/// factorisation (Golub & Van Loan, *Matrix Computations*, algorithm 4.1.2). `None` when a pivot
+/// is not positive or is negligible against the largest (below
+/// [`crate::tol::INFORMATION_SUM_RANK_REL`]): the matrix is singular up to rounding and the
+/// pseudo-inverse must be used instead.
+fn ldl_quadratic(a: &[f64; 21], b: &Vector6<f64>) -> Option<f64> {
+    let mut l = [[0.0f64; 6]; 6];
+    let mut d = [0.0f64; 6];
+    for j in 0..6 {
+        let mut pivot = a[packed_index(j, j)];
+        for k in 0..j {
+            pivot -= l[j][k] * l[j][k] * d[k];
+        }
+        if pivot.is_nan() || pivot <= 0.0 {
+            return None;
+        }
+        d[j] = pivot;
+        for i in j + 1..6 {
+            let mut v = a[packed_index(j, i)];
+            for k in 0..j {
+                v -= l[i][k] * l[j][k] * d[k];
+            }
+            l[i][j] = v / pivot;
+        }
+    }
+    let (d_min, d_max) = d.iter().fold((f64::INFINITY, 0.0f64), |(lo, hi), &v| {
+        (lo.min(v), hi.max(v))
+    });
+    if d_min <= crate::tol::INFORMATION_SUM_RANK_REL * d_max {
+        return None;
+    }
+    let mut y = [0.0f64; 6];
+    let mut quadratic = 0.0;
+    for i in 0..6 {
+        let mut v = b[i];
+        for k in 0..i {
+            v -= l[i][k] * y[k];
+        }
+        y[i] = v;
+        quadratic += v * v / d[i];
+    }
+    Some(quadratic)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The packed LDLᵀ quadratic form equals nalgebra's Cholesky solve on SPD matrices, and
+    /// declines singular ones.
+    #[test]
+    fn ldl_quadratic_matches_cholesky_solve() {
+        for seed in 0..20u32 {
+            let m =
+                Matrix6::from_fn(|i, j| ((seed as usize * 7 + i * 13 + j * 29) % 17) as f64 - 8.0);
+            let a = m * m.transpose() + Matrix6::identity() * 0.5;
+            let b = Vector6::from_fn(|i, _| (i as f64 - 2.5) * (seed as f64 + 1.0));
+            let packed: [f64; 21] = std::array::from_fn(|k| a[UPPER[k]]);
+            let expected = b.dot(&a.cholesky().unwrap().solve(&b));
+            let ours = ldl_quadratic(&packed, &b).unwrap();
+            assert!(
+                (ours - expected).abs() <= 1e-9 * expected.abs().max(1.0),
+                "{ours} vs {expected}"
+            );
+        }
+        let v = Vector6::new(1.0, 2.0, 0.0, -1.0, 0.5, 3.0);
+        let singular = v * v.transpose();
+        let packed: [f64; 21] = std::array::from_fn(|k| singular[UPPER[k]]);
+        assert_eq!(ldl_quadratic(&packed, &v), None);
+        assert_eq!(packed_index(0, 0), 0);
+        assert_eq!(
+            packed_index(2, 4),
+            UPPER.iter().position(|&p| p == (2, 4)).unwrap()
+        );
+    }
 }

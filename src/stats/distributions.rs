@@ -53,52 +53,69 @@ pub fn chi2_sf(x: f64, dof: f64) -> Result<f64, StatsError> {
 
 /// Chi-square quantile: the `x` with `P(X <= x) = p`, `X ~ chi2(dof)`.
 ///
-/// For `p > 0.5` the upper tail is solved on the survival function (see
-/// [`chi2_upper_quantile`]), so quantiles near 1 keep full relative precision.
+/// Solved on the distribution function below the median and on the survival function above it
+/// (see [`chi2_upper_quantile`]), so both far tails keep full relative precision.
 pub fn chi2_quantile(p: f64, dof: f64) -> Result<f64, StatsError> {
     check_probability(p)?;
     if p > 0.5 {
         return chi2_upper_quantile(1.0 - p, dof);
     }
-    Ok(chi_squared(dof)?.inverse_cdf(p))
+    let dist = chi_squared(dof)?;
+    Ok(solve_tail(&dist, p, Tail::Lower))
 }
 
 /// Upper-tail chi-square quantile: the `x` with `P(X > x) = q`.
-///
-/// Safeguarded Newton iteration on `sf(x) - q` (Press et al., *Numerical Recipes*, `rtsafe`),
-/// inside a bracket found by doubling; accurate for `q` down to the smallest normal double.
 pub fn chi2_upper_quantile(q: f64, dof: f64) -> Result<f64, StatsError> {
     check_probability(q)?;
-    let dist = chi_squared(dof)?;
-    if q >= 0.5 {
-        return Ok(dist.inverse_cdf(1.0 - q));
+    if q > 0.5 {
+        return chi2_quantile(1.0 - q, dof);
     }
-    let (mut low, mut high) = (dof.max(1.0) * 0.5, dof.max(1.0) * 2.0);
-    while dist.sf(low) < q {
+    let dist = chi_squared(dof)?;
+    Ok(solve_tail(&dist, q, Tail::Upper))
+}
+
+#[derive(Clone, Copy, PartialEq)]
+enum Tail {
+    Lower,
+    Upper,
+}
+
+/// Solves `cdf(x) = prob` (lower tail) or `sf(x) = prob` (upper tail) for a distribution on
+/// `(0, ∞)`: a bracket found by halving and doubling, then Newton steps safeguarded by geometric
+/// bisection of the bracket (Press et al., *Numerical Recipes*, `rtsafe`; bisection in `log x`
+/// because lower-tail quantiles of small degrees of freedom lie many decades below 1).
+fn solve_tail(dist: &ChiSquared, prob: f64, tail: Tail) -> f64 {
+    // Signed so that the residual increases with x in both tails.
+    let residual = |x: f64| match tail {
+        Tail::Lower => dist.cdf(x) - prob,
+        Tail::Upper => prob - dist.sf(x),
+    };
+    let (mut low, mut high) = (1.0, 1.0);
+    while residual(low) > 0.0 && low > f64::MIN_POSITIVE {
         low *= 0.5;
     }
-    while dist.sf(high) > q {
+    while residual(high) < 0.0 && high < f64::MAX / 2.0 {
         high *= 2.0;
     }
-    let mut x = 0.5 * (low + high);
+    let mut x = (low * high).sqrt();
     for _ in 0..tol::QUANTILE_MAX_ITER {
-        let excess = dist.sf(x) - q;
-        if excess > 0.0 {
-            low = x;
-        } else {
+        let r = residual(x);
+        if r > 0.0 {
             high = x;
+        } else {
+            low = x;
         }
-        let mut next = x + excess / dist.pdf(x);
+        let mut next = x - r / dist.pdf(x);
         if !next.is_finite() || next <= low || next >= high {
-            next = 0.5 * (low + high);
+            next = (low * high).sqrt();
         }
-        let converged = (next - x).abs() <= tol::QUANTILE_REL * x.abs();
+        let converged = (next - x).abs() <= tol::QUANTILE_REL * x;
         x = next;
-        if converged || high - low <= tol::QUANTILE_REL * x.abs() {
+        if converged || high - low <= tol::QUANTILE_REL * x {
             break;
         }
     }
-    Ok(x)
+    x
 }
 
 /// Two-sided chi-square interval `[chi2(a/2), chi2(1 - a/2)]` with `a = 1 - level`.

@@ -95,8 +95,10 @@ pub struct Information {
 
 impl Information {
     /// Validates a covariance (finite, symmetric, positive semi-definite up to rounding) and
-    /// takes its pseudo-inverse; eigenvalues below [`tol::COVARIANCE_RANK_REL`] times the largest
-    /// are unobservable directions. `index` only labels the error.
+    /// takes its pseudo-inverse. An unobservable direction is written as a zero variance, as the
+    /// pseudo-inverse of a singular Fisher information leaves it (eigenvalue below
+    /// [`tol::COVARIANCE_RANK_REL`] of the largest); a huge variance is an observable but
+    /// uninformative direction and counts as a degree of freedom. `index` only labels the error.
     pub fn from_covariance(covariance: &Matrix6<f64>, index: usize) -> Result<Self, StatsError> {
         if covariance.iter().any(|v| !v.is_finite()) {
             return Err(StatsError::NonFinite {

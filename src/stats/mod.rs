@@ -6,6 +6,7 @@
 //!
 //! - [`distributions`]: chi-square, F, normal and Student t quantiles and tail probabilities.
 //! - [`information`]: rank-aware information matrices (pseudo-inverse of a covariance).
+//! - [`series`]: a validated deviation series, its common whitening and effective information.
 //! - [`consistency`]: per-frame and windowed chi-square tests, pixel-noise estimate, excess
 //!   scatter, NEES acceptance intervals.
 //! - [`cost`] and [`changepoint`]: segment costs from prefix sums and exact PELT (also a mode that
@@ -31,6 +32,7 @@ pub mod online;
 pub mod penalty;
 pub mod screening;
 pub mod segments;
+pub mod series;
 
 /// A failure of a statistics routine: always a bad argument, never a numerical accident.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]

@@ -12,15 +12,18 @@
 //! This is the overlapping Allan variance (IEEE Std 1139-2008; Allan 1966) in matrix form. For
 //! white noise `G(τ) = I` at every scale; for AR(1) noise with coefficient ρ it grows towards the
 //! long-run variance ratio `(1+ρ)/(1−ρ)`; for a vibration of period P it peaks near `τ ≈ P/2`.
-//! The inflation used by the tests is, per principal direction `u_j` of the pooled `G`, the
-//! largest `u_jᵀ G(τ) u_j` over the scales from the minimum segment length up to a fraction of
-//! the series, floored at 1 (the predicted covariance is never made smaller):
-//! `Γ = U diag(κ_j) Uᵀ`, `κ_j = max(1, max_τ u_jᵀ G(τ) u_j)`.
+//! The inflation used by the change-point search is, per principal direction `u_j` of the pooled
+//! `G`, the largest `u_jᵀ G(τ) u_j` over the scales from the minimum segment length up to a
+//! fraction of the series: `Γ = U diag(κ_j) Uᵀ`, `κ_j = max_τ u_jᵀ G(τ) u_j`. It is a studentiser:
+//! the penalty is calibrated for exactly this estimator, so it is not floored (a floor would make
+//! white noise a special case of the calibration). For intervals a long-run version is used,
+//! floored at 1 (never more precise than the per-frame covariances claim).
 //! Windows are taken inside given segments only, so known mean shifts do not inflate it.
 //!
-//! The same pass measures the lag-1 autocorrelation of each principal direction from a robust
-//! semivariogram: the penalty calibration simulates AR(1) noise with that coefficient so that the
-//! estimation error of `Γ` under correlated noise is accounted for (`penalty` module).
+//! The same pass measures the lag-1 autocorrelation of each principal direction (of the residuals
+//! about the segment means, and a shift-robust version from a semivariogram): the penalty
+//! calibration simulates AR(1) noise with that coefficient so that the estimation error of `Γ`
+//! under correlated noise is accounted for (`penalty` module).
 
 use nalgebra::{Matrix6, Vector6};
 
@@ -34,21 +37,31 @@ pub struct NoiseScales {
     /// Largest scale as a fraction of the number of samples (longer windows are too few to
     /// estimate anything; larger scales reuse the largest estimate).
     pub max_scale_fraction: f64,
+    /// Largest scale as a multiple of the smallest: beyond it the estimates only add noise to
+    /// the maximum (AR(1) noise with ρ = 0.9 reaches 97% of its long-run variance at 32 x 10
+    /// samples), and the long-run extrapolation covers the rest.
+    pub max_scale_multiple: usize,
 }
 
 impl NoiseScales {
-    /// The default grid for a minimum segment length: from it up to one eighth of the series.
+    /// The default grid for a minimum segment length: from it up to a sixteenth of the series
+    /// or 32 times itself, whichever is smaller.
     pub fn for_min_size(min_size: usize) -> Self {
         Self {
             min_scale: min_size.max(1),
             max_scale_fraction: 0.0625,
+            max_scale_multiple: 32,
         }
     }
 
-    /// Scales from `min_scale` upward by factors of about √2 up to `max_scale_fraction · n`
-    /// (at least the smallest scale when the series holds two windows of it).
+    /// Scales from `min_scale` upward by factors of 2 up to `max_scale_fraction · n` and
+    /// `max_scale_multiple · min_scale` (at least the smallest scale when the series holds two
+    /// windows of it).
     pub fn grid(&self, n: usize) -> Vec<usize> {
-        let top = ((n as f64 * self.max_scale_fraction).floor() as usize).max(self.min_scale);
+        let by_length = (n as f64 * self.max_scale_fraction).floor() as usize;
+        let top = by_length
+            .min(self.max_scale_multiple * self.min_scale)
+            .max(self.min_scale);
         let mut scales = Vec::new();
         let mut tau = self.min_scale.max(1);
         while tau <= top && 2 * tau <= n {
@@ -67,24 +80,29 @@ pub struct EffectiveNoise {
     /// penalty is calibrated for exactly this estimator.
     pub inflation: Matrix6<f64>,
     /// `Γ_∞`: `Γ` with each direction raised to the long-run variance its AR(1) coefficient
-    /// implies beyond the largest scale examined (`κ_j · G(∞)/G(τ_max)`); used for the intervals
-    /// of segment means, which average over more samples than any window.
+    /// implies beyond the scales examined (`uᵀG(τ)u · G_AR(∞)/G_AR(τ)`, averaged over the
+    /// largest scales); used for the intervals of segment means, which average over more samples
+    /// than any window.
     pub long_run_inflation: Matrix6<f64>,
+    /// The long-run factors per direction (the eigenvalues of `Γ_∞`).
+    pub long_run_factors: Vector6<f64>,
     /// Principal directions `u_j` (columns) in the whitened coordinates.
     pub directions: Matrix6<f64>,
-    /// `κ_j >= 1` per direction; zero for inactive coordinates.
+    /// `κ_j` per direction; zero for inactive coordinates.
     pub factors: Vector6<f64>,
-    /// The scales (samples) at which each `κ_j` was attained; zero where the floor of 1 applied.
+    /// The scales (samples) at which each `κ_j` was attained.
     pub scale_of_max: [usize; 6],
     /// The scales examined.
     pub scales: Vec<usize>,
     /// Number of windows at the smallest scale (how much data the estimate rests on).
     pub windows: usize,
-    /// Largest lag-1 autocorrelation over the principal directions (0 when unknown).
-    pub lag1_autocorrelation: f64,
-    /// The same plus its small-sample bias `(1+3ρ)/N` (Kendall 1954; `N` lag-1 pairs), the
-    /// value the penalty calibration uses.
-    pub lag1_upper: f64,
+    /// Largest lag-1 autocorrelation over the principal directions of the residuals about each
+    /// segment's mean, corrected for its small-sample bias `−(1+3ρ)/N` (Kendall 1954; `N` lag-1
+    /// pairs). Precise (standard error about `1/√N`), but an undeclared mean shift inflates it.
+    pub lag1: f64,
+    /// A shift-robust version from the semivariogram (see `lag1_per_direction`), noisier; used
+    /// before any segment is known.
+    pub lag1_robust: f64,
 }
 
 impl EffectiveNoise {
@@ -94,13 +112,14 @@ impl EffectiveNoise {
         Self {
             inflation: Matrix6::from_diagonal(&factors),
             long_run_inflation: Matrix6::from_diagonal(&factors),
+            long_run_factors: factors,
             directions: Matrix6::identity(),
             factors,
             scale_of_max: [0; 6],
             scales: Vec::new(),
             windows: 0,
-            lag1_autocorrelation: 0.0,
-            lag1_upper: 0.0,
+            lag1: 0.0,
+            lag1_robust: 0.0,
         }
     }
 
@@ -195,7 +214,6 @@ pub fn estimate_effective_noise(
         if u.rows(dim, 6 - dim).norm() > 0.5 {
             continue; // an inactive coordinate (zero in every sample)
         }
-        factors[j] = 1.0;
         for (tau, g, _) in &estimates {
             let k = u.dot(&(g * u));
             if k > factors[j] {
@@ -205,31 +223,85 @@ pub fn estimate_effective_noise(
         }
     }
     let inflation = directions * Matrix6::from_diagonal(&factors) * directions.transpose();
-    let far_lag = (4 * scales.min_scale).min(z.len() / 4).max(2);
-    let lag1 = lag1_per_direction(z, segments, &directions, &factors, far_lag);
-    let pairs: usize = segments
-        .iter()
-        .map(|(a, b)| (b - a).saturating_sub(1))
-        .sum();
-    let bias = |rho: f64| (1.0 + 3.0 * rho) / pairs.max(1) as f64;
-    let lag1_autocorrelation = lag1.max();
-    let (top_scale, top, _) = estimates[estimates.len() - 1];
+    let far_lags: Vec<usize> = (2..=4)
+        .map(|k| (k * scales.min_scale).min(z.len() / 4).max(2))
+        .collect();
+    let robust = lag1_per_direction(z, segments, &directions, &factors, &far_lags);
+    let (lag1, pairs) = residual_lag1(z, segments, &directions, &factors);
+    let corrected = |rho: f64| (rho + (1.0 + 3.0 * rho.max(0.0)) / pairs.max(1) as f64).min(1.0);
     let long_run = Vector6::from_fn(|j, _| {
-        let at_top = directions.column(j).dot(&(top * directions.column(j)));
-        let extrapolated = at_top * ar1_long_run_ratio(lag1[j], top_scale);
-        factors[j].max(extrapolated)
+        if factors[j] <= 0.0 {
+            return 0.0;
+        }
+        factors[j].max(1.0).max(long_run_extrapolation(
+            &estimates,
+            &directions.column(j).into(),
+            lag1[j],
+        ))
     });
     EffectiveNoise {
         inflation,
         long_run_inflation: directions * Matrix6::from_diagonal(&long_run) * directions.transpose(),
+        long_run_factors: long_run,
         directions,
         factors,
         scale_of_max,
         scales: estimates.iter().map(|(t, _, _)| *t).collect(),
         windows: estimates[0].2,
-        lag1_autocorrelation,
-        lag1_upper: (lag1_autocorrelation + bias(lag1_autocorrelation)).min(1.0),
+        lag1: corrected(lag1.max()),
+        lag1_robust: corrected(robust.max()),
     }
+}
+
+/// Lag-1 autocorrelation of each active principal direction of the residuals about each
+/// segment's mean (pairs inside segments), and the number of pairs.
+fn residual_lag1(
+    z: &[Vector6<f64>],
+    segments: &[(usize, usize)],
+    directions: &Matrix6<f64>,
+    factors: &Vector6<f64>,
+) -> (Vector6<f64>, usize) {
+    let mut lag0 = Vector6::<f64>::zeros();
+    let mut lag1 = Vector6::<f64>::zeros();
+    let mut pairs = 0;
+    for &(start, end) in segments.iter().filter(|(a, b)| b - a >= 2) {
+        let mean = z[start..end].iter().sum::<Vector6<f64>>() / (end - start) as f64;
+        let residual = |t: usize| directions.transpose() * (z[t] - mean);
+        let mut previous = residual(start);
+        lag0 += previous.component_mul(&previous);
+        for t in start + 1..end {
+            let current = residual(t);
+            lag0 += current.component_mul(&current);
+            lag1 += current.component_mul(&previous);
+            previous = current;
+            pairs += 1;
+        }
+    }
+    let rho = Vector6::from_fn(|j, _| {
+        if factors[j] > 0.0 && lag0[j] > 0.0 {
+            (lag1[j] / lag0[j]).clamp(0.0, 1.0)
+        } else {
+            0.0
+        }
+    });
+    (rho, pairs)
+}
+
+/// The long-run variance of direction `u` extrapolated from the large scales: the mean over the
+/// scales `τ >= τ_max/4` of `uᵀG(τ)u · G_AR(∞)/G_AR(τ)` for the direction's AR(1) coefficient
+/// (averaging a few scales halves the noise of the single largest one).
+fn long_run_extrapolation(
+    estimates: &[(usize, Matrix6<f64>, usize)],
+    u: &Vector6<f64>,
+    rho: f64,
+) -> f64 {
+    let top = estimates[estimates.len() - 1].0;
+    let upper: Vec<f64> = estimates
+        .iter()
+        .filter(|(tau, _, _)| 4 * tau >= top)
+        .map(|(tau, g, _)| u.dot(&(g * u)) * ar1_long_run_ratio(rho, *tau))
+        .collect();
+    upper.iter().sum::<f64>() / upper.len() as f64
 }
 
 /// `G(∞)/G(τ)` for AR(1) noise with coefficient ρ: how much of the long-run variance
@@ -274,16 +346,17 @@ fn robust_semivariogram(u: &[f64], segments: &[(usize, usize)], lag: usize) -> O
 }
 
 /// Lag-1 autocorrelation of each active principal direction from the robust semivariogram,
-/// `ρ = 1 − D(1)/D(K)` (for AR(1) noise `D(k) = γ₀(1 − ρ^k)`, and `D(K) ≈ γ₀` once `ρ^K` is
-/// small), with `K` four minimum segment lengths. Differences of nearby samples are untouched by
-/// mean shifts, and a vibration adds about as much to `D(1)` as to `D(K)`, so neither looks like
-/// correlated noise. Zero for inactive directions and where it cannot be measured.
+/// `ρ = 1 − D(1)/D̄` (for AR(1) noise `D(k) = γ₀(1 − ρ^k)`, and `D̄ ≈ γ₀`, the mean of `D` at two,
+/// three and four minimum segment lengths, once `ρ^k` is small there). Differences of nearby
+/// samples are untouched by mean shifts. A fast vibration adds about as much to `D(1)` as to
+/// `D̄` and does not look like correlated noise; a slow one does (the penalty then errs high).
+/// Zero for inactive directions and where it cannot be measured.
 fn lag1_per_direction(
     z: &[Vector6<f64>],
     segments: &[(usize, usize)],
     directions: &Matrix6<f64>,
     factors: &Vector6<f64>,
-    far_lag: usize,
+    far_lags: &[usize],
 ) -> Vector6<f64> {
     Vector6::from_fn(|j, _| {
         if factors[j] <= 0.0 {
@@ -291,7 +364,11 @@ fn lag1_per_direction(
         }
         let u: Vec<f64> = z.iter().map(|v| directions.column(j).dot(v)).collect();
         let near = robust_semivariogram(&u, segments, 1);
-        let far = robust_semivariogram(&u, segments, far_lag);
+        let far: Option<Vec<f64>> = far_lags
+            .iter()
+            .map(|&lag| robust_semivariogram(&u, segments, lag))
+            .collect();
+        let far = far.map(|d| d.iter().sum::<f64>() / d.len() as f64);
         match (near, far) {
             (Some(near), Some(far)) if far > 0.0 => (1.0 - near / far).clamp(0.0, 1.0),
             _ => 0.0,
