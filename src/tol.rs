@@ -120,8 +120,9 @@ pub const MIRROR_SAME_CHI2: f64 = 1e-6;
 pub const MIRROR_RELIEF_SIGMA: f64 = 30.0;
 
 /// The Gauss-Newton iteration on the EPnP betas stops once a step is below this fraction of the
-/// betas: the result is only a start for the pixel-space refinement.
-pub const EPNP_BETA_STEP_REL: f64 = 1e-12;
+/// betas: the result is only a start for the pixel-space refinement (and with exact data the
+/// quadratic convergence leaves about the square of it).
+pub const EPNP_BETA_STEP_REL: f64 = 1e-6;
 
 /// EPnP's closed-form single-vector (N = 1) solution is taken as the start, without trying the
 /// N = 2 and 3 hypotheses, when its RMS error on the normalised image is within this many pixel

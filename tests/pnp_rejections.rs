@@ -198,7 +198,10 @@ fn bad_warm_starts_fall_back_to_the_global_start() {
     let flipped = truth() * pose_from_rvec(&Vector3::new(3.0, 0.0, 0.0), &Vector3::zeros());
     for (warm, usable) in [(nan, false), (behind, false), (flipped, true)] {
         let est = solved(solve_pose(&cam, &model, &obs, Some(&warm), &opts));
-        assert!(tangent(&est.pose, &cold.pose).norm() < 1e-6, "warm {warm:?}");
+        assert!(
+            tangent(&est.pose, &cold.pose).norm() < 1e-6,
+            "warm {warm:?}"
+        );
         // A NaN or behind-the-camera warm start is not even tried; a far one may still lead
         // to the right minimum, and is then kept.
         if !usable {
