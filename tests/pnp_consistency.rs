@@ -1,8 +1,9 @@
 //! Monte Carlo consistency of the pose covariance: normalised estimation error squared (NEES) of
 //! the 6-D pose error in the left-perturbation tangent space, against the chi-square interval of
 //! Bar-Shalom, Li and Kirubarajan (Estimation with Applications to Tracking and Navigation,
-//! Wiley 2001, section 5.4), and the empirical standard deviations against the Cramér-Rao bound
-//! computed from the true pose's Fisher information.
+//! Wiley 2001, section 5.4), the empirical standard deviations against the Cramér-Rao bound
+//! computed from the true pose's Fisher information, and the pooled reprojection chi-square
+//! against its chi-square distribution (2n − 6 degrees of freedom per frame).
 
 mod pnp_common;
 
@@ -60,6 +61,7 @@ fn check_consistency(s: &Scenario, runs: usize, seed: u64) {
     .unwrap();
     let mut errors: Vec<Vector6<f64>> = Vec::with_capacity(runs);
     let mut nees_sum = 0.0;
+    let (mut chi2_sum, mut dof_sum) = (0.0, 0usize);
     for _ in 0..runs {
         let noisy: Vec<Vector2<f64>> = clean
             .iter()
@@ -81,7 +83,17 @@ fn check_consistency(s: &Scenario, runs: usize, seed: u64) {
         // NEES with the solver's own predicted covariance (its inverse is the information).
         nees_sum += e.dot(&(est.information * e));
         errors.push(e);
+        chi2_sum += est.chi2;
+        dof_sum += est.dof;
     }
+    // Goodness of fit: the summed chi-square of independent runs is chi-square with the summed
+    // degrees of freedom, so the pooled pixel-noise scale must sit in its 95% interval.
+    let pooled = ChiSquared::new(dof_sum as f64).unwrap();
+    let (lo, hi) = (pooled.inverse_cdf(0.025), pooled.inverse_cdf(0.975));
+    assert!(
+        (lo..=hi).contains(&chi2_sum),
+        "pooled chi2 {chi2_sum} outside [{lo}, {hi}]"
+    );
     let mean_nees = nees_sum / runs as f64;
     let (lo, hi) = nees_interval(6, runs);
     assert!(
