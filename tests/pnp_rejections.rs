@@ -268,3 +268,41 @@ proptest! {
         }
     }
 }
+
+#[test]
+fn nearly_collinear_points_are_solved_with_a_rank_deficient_covariance() {
+    // Points on a 1.5 m line with off-axis offsets of 10 µm: the roll about the line carries
+    // about 1e-10 of the information of the other directions (below tol::RANK_REL_EIG), so the
+    // covariance drops it (rank 5) and the estimate is flagged ill-conditioned; the other five
+    // directions are still solved. Exact keypoints.
+    let cam = Camera::ideal(640, 480, 800.0, 320.0, 240.0);
+    let pts: Vec<Vector3<f64>> = (0..7)
+        .map(|i| {
+            let x = 0.25 * f64::from(i);
+            let off = if i % 2 == 0 { 1e-5 } else { -1e-5 };
+            Vector3::new(x, off, if i % 3 == 0 { off } else { -off })
+        })
+        .collect();
+    let truth = pose_from_rvec(&Vector3::new(0.2, 1.2, 0.1), &Vector3::new(-0.4, 0.2, 4.0));
+    let obs = observations(&project_all(&cam, &pts, &truth), 1.0);
+    let est = solved(solve_pose(
+        &cam,
+        &model_from_points(&pts),
+        &obs,
+        None,
+        &PnpOptions::default(),
+    ));
+    assert_eq!(est.rank, 5);
+    assert!(est.ill_conditioned);
+    assert_eq!(est.condition_number, None);
+    assert_eq!(est.dof, 2 * 7 - 5);
+    assert!(est.covariance.iter().all(|c| c.is_finite()));
+    // Whatever roll it settled on, the pose reprojects to a few thousandths of a pixel and
+    // places every point (all on the roll axis to within 10 µm) within a millimetre of the
+    // truth, a fraction of the 5 mm depth standard deviation at 4 m.
+    assert!(est.chi2 < 1e-4, "chi2 {}", est.chi2);
+    for p in &pts {
+        let p = nalgebra::Point3::from(*p);
+        assert!(((est.pose * p) - (truth * p)).norm() < 1e-3);
+    }
+}
