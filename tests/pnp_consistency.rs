@@ -42,7 +42,24 @@ struct Scenario {
     camera: Camera,
     points: Vec<Vector3<f64>>,
     truth: Isometry3<f64>,
-    sigma_px: f64,
+    /// One-sigma pixel noise of each keypoint (drawn and stated alike).
+    sigma_px: Vec<f64>,
+}
+
+fn observations_with(
+    pixels: &[Vector2<f64>],
+    sigma_px: &[f64],
+) -> Vec<mountdrift::session::Observation> {
+    pixels
+        .iter()
+        .zip(sigma_px)
+        .enumerate()
+        .map(|(i, (px, s))| mountdrift::session::Observation {
+            point: i,
+            px: *px,
+            sigma_px: *s,
+        })
+        .collect()
 }
 
 /// Runs `runs` noisy solves and checks mean NEES and per-axis standard deviations.
@@ -53,7 +70,7 @@ fn check_consistency(s: &Scenario, runs: usize, seed: u64) {
     let crb = fisher_information(
         &s.camera,
         &model,
-        &observations(&clean, s.sigma_px),
+        &observations_with(&clean, &s.sigma_px),
         &s.truth,
     )
     .unwrap()
@@ -65,15 +82,16 @@ fn check_consistency(s: &Scenario, runs: usize, seed: u64) {
     for _ in 0..runs {
         let noisy: Vec<Vector2<f64>> = clean
             .iter()
-            .map(|p| {
+            .zip(&s.sigma_px)
+            .map(|(p, sigma)| {
                 let n: [f64; 2] = [
                     StandardNormal.sample(&mut rng),
                     StandardNormal.sample(&mut rng),
                 ];
-                p + Vector2::from(n) * s.sigma_px
+                p + Vector2::from(n) * *sigma
             })
             .collect();
-        let obs = observations(&noisy, s.sigma_px);
+        let obs = observations_with(&noisy, &s.sigma_px);
         let est = match solve_pose(&s.camera, &model, &obs, None, &PnpOptions::default()) {
             PoseStatus::Solved(e) => e,
             PoseStatus::Rejected(r) => panic!("rejected: {}", r.message),
@@ -131,7 +149,7 @@ fn anchor_problem_is_consistent_with_its_crb() {
             &Vector3::new(0.1, -0.2, 0.3),
             &Vector3::new(0.05, -0.1, 4.0),
         ),
-        sigma_px: 1.0,
+        sigma_px: vec![1.0; 8],
     };
     check_consistency(&scenario, 4000, 11);
 }
@@ -153,7 +171,30 @@ fn distorted_drogue_is_consistent_with_its_crb() {
             &Vector3::new(0.25, -0.3, 0.1),
             &Vector3::new(0.4, -0.2, 4.0),
         ),
-        sigma_px: 0.7,
+        sigma_px: vec![0.7; 16],
     };
     check_consistency(&scenario, 4000, 12);
+}
+
+#[test]
+fn unequal_keypoint_sigmas_are_weighted_consistently() {
+    // The same drogue with per-keypoint sigmas from 0.4 to 2.2 px (a detector's confidence):
+    // the estimate must weight each keypoint by 1/σ² to reach this CRB and this NEES.
+    let d = Distortion::BrownConrady {
+        k1: -0.12,
+        k2: 0.03,
+        p1: 0.0004,
+        p2: -0.0003,
+        k3: 0.0,
+    };
+    let scenario = Scenario {
+        camera: Camera::new(1280, 960, 1100.0, 1100.0, 640.0, 480.0, 0.0, d, 1.0).unwrap(),
+        points: drogue_points(),
+        truth: pose_from_rvec(
+            &Vector3::new(-0.2, 0.35, 0.3),
+            &Vector3::new(-0.3, 0.25, 3.0),
+        ),
+        sigma_px: (0..16).map(|i| 0.4 + 0.12 * f64::from(i)).collect(),
+    };
+    check_consistency(&scenario, 4000, 13);
 }
