@@ -241,12 +241,18 @@ fn options_are_validated() {
 }
 
 proptest! {
-    #![proptest_config(ProptestConfig::with_cases(300))]
+    #![proptest_config(ProptestConfig::with_cases(500))]
 
     #[test]
     fn arbitrary_detections_never_panic_nor_give_nan(
-        pixels in prop::collection::vec((-2000.0..3000.0f64, -2000.0..3000.0f64), 0..12),
-        sigma in 0.1..5.0f64,
+        pixels in prop::collection::vec(
+            prop_oneof![
+                4 => (-2000.0..3000.0f64, -2000.0..3000.0f64),
+                1 => (-1e12..1e12f64, -1e12..1e12f64),
+            ],
+            0..12,
+        ),
+        sigma in prop_oneof![0.1..5.0f64, 1e-6..1e6f64],
     ) {
         let d = Distortion::BrownConrady { k1: -0.15, k2: 0.02, p1: 0.0, p2: 0.0, k3: 0.0 };
         let cam = Camera::new(640, 480, 800.0, 800.0, 320.0, 240.0, 0.0, d, 1.0).unwrap();
@@ -304,5 +310,31 @@ fn nearly_collinear_points_are_solved_with_a_rank_deficient_covariance() {
     for p in &pts {
         let p = nalgebra::Point3::from(*p);
         assert!(((est.pose * p) - (truth * p)).norm() < 1e-3);
+    }
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(200))]
+
+    #[test]
+    fn wild_keypoints_in_a_good_frame_are_gated_out(
+        wild in prop::collection::vec((0usize..8, -1e12..1e12f64, -1e12..1e12f64), 1..3),
+    ) {
+        // A good frame with one or two keypoints anywhere (even 1e12 px away): still solved,
+        // the wild keypoints flagged, everything finite.
+        let (cam, model, mut obs) = setup();
+        for (i, u, v) in &wild {
+            obs[*i].px = Vector2::new(*u, *v);
+        }
+        let est = match solve_pose(&cam, &model, &obs, None, &PnpOptions::default()) {
+            PoseStatus::Solved(e) => e,
+            PoseStatus::Rejected(r) => return Err(TestCaseError::fail(r.message)),
+        };
+        for (i, _, _) in &wild {
+            prop_assert!(!est.inliers[*i]);
+        }
+        prop_assert!(est.covariance.iter().all(|c| c.is_finite()) && est.chi2.is_finite());
+        let e = tangent(&est.pose, &truth());
+        prop_assert!(e.dot(&(est.information * e)) < 1e-6, "{e} inliers {:?}", est.inliers);
     }
 }

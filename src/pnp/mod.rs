@@ -394,13 +394,7 @@ fn global_solution(
     warm_pose: Option<Pose>,
 ) -> Result<Solution, Rejection> {
     let starts = start::global_starts(problem, geometry);
-    if starts.is_empty() && warm_pose.is_none() {
-        return Err(Rejection::new(
-            RejectionReason::DegenerateGeometry,
-            "no start pose could be computed: the observed model points are in a degenerate \
-             configuration (for 4 coplanar points, three of them are collinear)",
-        ));
-    }
+    let mut any_start = !starts.is_empty() || warm_pose.is_some();
     let mut best: Option<Solution> =
         warm_pose.and_then(|p| refine::robust_solve(problem, p, PoseStart::Warm));
     let mut any_in_front = best.is_some();
@@ -419,6 +413,7 @@ fn global_solution(
     // starts computed on subsets that leave them out.
     if best.as_ref().is_none_or(|b| b.inlier_count() < n) {
         for (pose, kind) in start::subset_starts(problem) {
+            any_start = true;
             any_in_front |= refine::all_in_front(problem, &pose);
             if let Some(s) = refine::robust_solve(problem, pose, kind) {
                 keep_better(&mut best, s);
@@ -426,6 +421,11 @@ fn global_solution(
         }
     }
     match best {
+        None if !any_start => Err(Rejection::new(
+            RejectionReason::DegenerateGeometry,
+            "no start pose could be computed: the observed model points are in a degenerate \
+             configuration (for 4 coplanar points, three of them are collinear)",
+        )),
         Some(s) if s.converged => Ok(s),
         Some(s) => Err(Rejection::new(
             RejectionReason::NotConverged,
