@@ -92,8 +92,9 @@ pub const LM_MAX_DAMPING: f64 = 1e12;
 /// direction (zero information) still gets a finite, damped step.
 pub const LM_DIAGONAL_FLOOR: f64 = 1e-12;
 
-/// At most this many global starts are refined per frame (EPnP gives up to 3, IPPE 2).
-pub const PNP_MAX_STARTS: usize = 4;
+/// At most this many starts computed from all points are refined per frame (IPPE gives two, EPnP
+/// its best hypothesis); refinement stops at the first that fits every point.
+pub const PNP_MAX_STARTS: usize = 3;
 
 /// Observed model points whose RMS thickness off their best-fit plane is below this fraction of
 /// their RMS length are treated as exactly planar (IPPE start only; EPnP's third control point
@@ -131,13 +132,15 @@ pub const EPNP_BETA_ITER: usize = 10;
 pub const MIRROR_SAME_CHI2: f64 = 1e-6;
 
 /// The mirror minimum is examined when the target's relief off its best-fit plane projects to
-/// fewer than this many standard deviations (always for planar targets). Beyond it the mirror
-/// fits so badly that it cannot compete (its excess cost grows as the square of the relief).
+/// fewer than this many standard deviations (always for planar targets). Beyond it a mirror
+/// minimum, where one exists at all, fits far worse than the ambiguity threshold: its excess cost
+/// grows as the square of the relief in standard deviations.
 pub const MIRROR_RELIEF_SIGMA: f64 = 30.0;
 
 /// The Gauss-Newton iteration on the EPnP betas stops once a step is below this fraction of the
-/// betas: the result is only a start for the pixel-space refinement.
-pub const EPNP_BETA_STEP_REL: f64 = 1e-12;
+/// betas: the result is only a start for the pixel-space refinement (and with exact data the
+/// quadratic convergence leaves about the square of it).
+pub const EPNP_BETA_STEP_REL: f64 = 1e-6;
 
 /// EPnP's closed-form single-vector (N = 1) solution is taken as the start, without trying the
 /// N = 2 and 3 hypotheses, when its RMS error on the normalised image is within this many pixel
@@ -150,8 +153,9 @@ pub const EPNP_ACCEPT_SIGMA: f64 = 3.0;
 /// refinement then corrects.
 pub const START_EIGEN_REL: f64 = 1e-10;
 
-/// Relative off-diagonal tolerance of the Jacobi eigen-decomposition of a Fisher information:
-/// eigenvalues accurate to about 1e-26 relative, far inside `RANK_REL_EIG`.
+/// Relative off-diagonal tolerance of the Jacobi eigen-decomposition of a rank-deficient Fisher
+/// information: the tolerance itself perturbs the eigenvalues by about its square, below rounding
+/// and far inside `RANK_REL_EIG`.
 pub const COVARIANCE_EIGEN_REL: f64 = 1e-13;
 
 /// Shift (relative to the trace) that keeps EPnP's reduced 4x4 matrix positive definite for the
@@ -174,8 +178,9 @@ pub const POLAR_STEP: f64 = 1e-13;
 /// subsets (leave-one-out and random) are ranked by gated cost and this many are refined too.
 pub const PNP_SUBSET_REFINED: usize = 3;
 
-/// Random subsets tried when outliers are suspected. With 2 outliers among 16 points a random 6-point subset is clean with probability 0.375, so 20 miss
-/// every clean subset with probability 0.625^20 ≈ 1e-4.
+/// Random subsets tried when outliers are suspected. With 2 outliers among 16 points a random
+/// 6-point subset is clean with probability 0.375, so 20 subsets all miss with probability
+/// 0.625^20 ≈ 1e-4.
 pub const PNP_RANDOM_SUBSETS: usize = 20;
 
 /// Fixed seed of the subset sampler, so that a frame always gets the same answer.

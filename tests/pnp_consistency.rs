@@ -1,8 +1,9 @@
 //! Monte Carlo consistency of the pose covariance: normalised estimation error squared (NEES) of
 //! the 6-D pose error in the left-perturbation tangent space, against the chi-square interval of
 //! Bar-Shalom, Li and Kirubarajan (Estimation with Applications to Tracking and Navigation,
-//! Wiley 2001, section 5.4), and the empirical standard deviations against the Cramér-Rao bound
-//! computed from the true pose's Fisher information.
+//! Wiley 2001, section 5.4), the empirical standard deviations against the Cramér-Rao bound
+//! computed from the true pose's Fisher information, and the pooled reprojection chi-square
+//! against its chi-square distribution (2n − 6 degrees of freedom per frame).
 
 mod pnp_common;
 
@@ -41,7 +42,24 @@ struct Scenario {
     camera: Camera,
     points: Vec<Vector3<f64>>,
     truth: Isometry3<f64>,
-    sigma_px: f64,
+    /// One-sigma pixel noise of each keypoint (drawn and stated alike).
+    sigma_px: Vec<f64>,
+}
+
+fn observations_with(
+    pixels: &[Vector2<f64>],
+    sigma_px: &[f64],
+) -> Vec<mountdrift::session::Observation> {
+    pixels
+        .iter()
+        .zip(sigma_px)
+        .enumerate()
+        .map(|(i, (px, s))| mountdrift::session::Observation {
+            point: i,
+            px: *px,
+            sigma_px: *s,
+        })
+        .collect()
 }
 
 /// Runs `runs` noisy solves and checks mean NEES and per-axis standard deviations.
@@ -52,7 +70,7 @@ fn check_consistency(s: &Scenario, runs: usize, seed: u64) {
     let crb = fisher_information(
         &s.camera,
         &model,
-        &observations(&clean, s.sigma_px),
+        &observations_with(&clean, &s.sigma_px),
         &s.truth,
     )
     .unwrap()
@@ -60,18 +78,20 @@ fn check_consistency(s: &Scenario, runs: usize, seed: u64) {
     .unwrap();
     let mut errors: Vec<Vector6<f64>> = Vec::with_capacity(runs);
     let mut nees_sum = 0.0;
+    let (mut chi2_sum, mut dof_sum) = (0.0, 0usize);
     for _ in 0..runs {
         let noisy: Vec<Vector2<f64>> = clean
             .iter()
-            .map(|p| {
+            .zip(&s.sigma_px)
+            .map(|(p, sigma)| {
                 let n: [f64; 2] = [
                     StandardNormal.sample(&mut rng),
                     StandardNormal.sample(&mut rng),
                 ];
-                p + Vector2::from(n) * s.sigma_px
+                p + Vector2::from(n) * *sigma
             })
             .collect();
-        let obs = observations(&noisy, s.sigma_px);
+        let obs = observations_with(&noisy, &s.sigma_px);
         let est = match solve_pose(&s.camera, &model, &obs, None, &PnpOptions::default()) {
             PoseStatus::Solved(e) => e,
             PoseStatus::Rejected(r) => panic!("rejected: {}", r.message),
@@ -81,7 +101,17 @@ fn check_consistency(s: &Scenario, runs: usize, seed: u64) {
         // NEES with the solver's own predicted covariance (its inverse is the information).
         nees_sum += e.dot(&(est.information * e));
         errors.push(e);
+        chi2_sum += est.chi2;
+        dof_sum += est.dof;
     }
+    // Goodness of fit: the summed chi-square of independent runs is chi-square with the summed
+    // degrees of freedom, so the pooled pixel-noise scale must sit in its 95% interval.
+    let pooled = ChiSquared::new(dof_sum as f64).unwrap();
+    let (lo, hi) = (pooled.inverse_cdf(0.025), pooled.inverse_cdf(0.975));
+    assert!(
+        (lo..=hi).contains(&chi2_sum),
+        "pooled chi2 {chi2_sum} outside [{lo}, {hi}]"
+    );
     let mean_nees = nees_sum / runs as f64;
     let (lo, hi) = nees_interval(6, runs);
     assert!(
@@ -119,7 +149,7 @@ fn anchor_problem_is_consistent_with_its_crb() {
             &Vector3::new(0.1, -0.2, 0.3),
             &Vector3::new(0.05, -0.1, 4.0),
         ),
-        sigma_px: 1.0,
+        sigma_px: vec![1.0; 8],
     };
     check_consistency(&scenario, 4000, 11);
 }
@@ -141,7 +171,30 @@ fn distorted_drogue_is_consistent_with_its_crb() {
             &Vector3::new(0.25, -0.3, 0.1),
             &Vector3::new(0.4, -0.2, 4.0),
         ),
-        sigma_px: 0.7,
+        sigma_px: vec![0.7; 16],
     };
     check_consistency(&scenario, 4000, 12);
+}
+
+#[test]
+fn unequal_keypoint_sigmas_are_weighted_consistently() {
+    // The same drogue with per-keypoint sigmas from 0.4 to 2.2 px (a detector's confidence):
+    // the estimate must weight each keypoint by 1/σ² to reach this CRB and this NEES.
+    let d = Distortion::BrownConrady {
+        k1: -0.12,
+        k2: 0.03,
+        p1: 0.0004,
+        p2: -0.0003,
+        k3: 0.0,
+    };
+    let scenario = Scenario {
+        camera: Camera::new(1280, 960, 1100.0, 1100.0, 640.0, 480.0, 0.0, d, 1.0).unwrap(),
+        points: drogue_points(),
+        truth: pose_from_rvec(
+            &Vector3::new(-0.2, 0.35, 0.3),
+            &Vector3::new(-0.3, 0.25, 3.0),
+        ),
+        sigma_px: (0..16).map(|i| 0.4 + 0.12 * f64::from(i)).collect(),
+    };
+    check_consistency(&scenario, 4000, 13);
 }

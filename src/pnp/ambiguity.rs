@@ -38,7 +38,7 @@ pub(crate) fn examine(
         return None;
     }
     let start = mirror(&solution.pose, geometry)?;
-    let alt = refine_over(problem, &solution.inliers, start)?;
+    let alt = distinct(refine_over(problem, &solution.inliers, start)?, solution)?;
     // The mirror may also explain points the solution gated out: compare over all points too.
     let fits_better =
         alt.chi2 < solution.normal.cost || gated_cost(problem, &alt.pose) < solution.gated_cost;
@@ -47,7 +47,7 @@ pub(crate) fn examine(
         .flatten()
         .filter(|s| s.converged && s.better_than(solution));
     let Some(better) = better else {
-        return distinct(alt, solution);
+        return Some(alt);
     };
     let former = refine_over(problem, &better.inliers, solution.pose)?;
     *solution = better;

@@ -8,9 +8,11 @@
 //! ones; a warm start from the previous frame is tried first when given. Levenberg-Marquardt then
 //! minimises the sigma-weighted pixel reprojection error through the full distortion model, first
 //! with a Huber loss when some points do not fit, then by least squares over the points that pass a
-//! chi-square (2 dof) gate evaluated at the final pose. The covariance is the rank-aware
-//! pseudo-inverse of the Fisher information at the optimum. For coplanar or weakly-perspective
-//! targets the mirror (Necker) minimum is refined too and reported with its cost difference.
+//! chi-square (2 dof) gate evaluated at the final pose. When points fail the gate, starts from
+//! subsets that leave them out (leave-one-out and seeded random subsets) compete, scored as in
+//! MLESAC (Torr and Zisserman, CVIU 78, 2000). The covariance is the rank-aware pseudo-inverse of
+//! the Fisher information at the optimum. For coplanar or weakly-perspective targets the mirror
+//! (Necker) minimum is refined too and reported with its chi-square difference.
 //! Nothing here panics on input or returns NaN: a frame that cannot be solved is a `Rejection`.
 
 mod ambiguity;
@@ -42,7 +44,7 @@ pub use uncertainty::{fisher_information, CovarianceSummary};
 /// The covariance lives in the camera-frame tangent space of a left perturbation:
 /// `R = exp([δθ]x) R̂`, `t = t̂ + δt`, parameters ordered (δθx, δθy, δθz, δtx, δty, δtz)
 /// in radians and metres.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct PoseEstimate {
     pub pose: Isometry3<f64>,
     /// Fisher information `Jᵀ W J` at the optimum (W = diag(1/σ²) over inlier coordinates).
@@ -105,10 +107,16 @@ impl PoseEstimate {
             iterations: 0,
         }
     }
+
+    /// Pixel-noise scale estimated from the fit, `√(chi2 / dof)`: about 1 when the stated
+    /// `sigma_px` is right. `None` without degrees of freedom.
+    pub fn sigma_scale(&self) -> Option<f64> {
+        (self.dof > 0).then(|| (self.chi2 / self.dof as f64).sqrt())
+    }
 }
 
 /// The other local minimum of an ambiguous (planar or weak-perspective) pose problem.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Ambiguity {
     /// The alternative pose `T_CO`, refined to its own minimum over the same inliers.
     pub alternative: Isometry3<f64>,
@@ -258,7 +266,7 @@ pub enum RejectionReason {
 }
 
 /// A rejected frame: the reason and a message a person understands.
-#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[derive(Debug, Clone, PartialEq, thiserror::Error, serde::Serialize)]
 #[error("{message}")]
 pub struct Rejection {
     pub reason: RejectionReason,
@@ -386,13 +394,7 @@ fn global_solution(
     warm_pose: Option<Pose>,
 ) -> Result<Solution, Rejection> {
     let starts = start::global_starts(problem, geometry);
-    if starts.is_empty() && warm_pose.is_none() {
-        return Err(Rejection::new(
-            RejectionReason::DegenerateGeometry,
-            "no start pose could be computed: the observed model points are in a degenerate \
-             configuration (for 4 coplanar points, three of them are collinear)",
-        ));
-    }
+    let mut any_start = !starts.is_empty() || warm_pose.is_some();
     let mut best: Option<Solution> =
         warm_pose.and_then(|p| refine::robust_solve(problem, p, PoseStart::Warm));
     let mut any_in_front = best.is_some();
@@ -411,6 +413,7 @@ fn global_solution(
     // starts computed on subsets that leave them out.
     if best.as_ref().is_none_or(|b| b.inlier_count() < n) {
         for (pose, kind) in start::subset_starts(problem) {
+            any_start = true;
             any_in_front |= refine::all_in_front(problem, &pose);
             if let Some(s) = refine::robust_solve(problem, pose, kind) {
                 keep_better(&mut best, s);
@@ -418,6 +421,11 @@ fn global_solution(
         }
     }
     match best {
+        None if !any_start => Err(Rejection::new(
+            RejectionReason::DegenerateGeometry,
+            "no start pose could be computed: the observed model points are in a degenerate \
+             configuration (for 4 coplanar points, three of them are collinear)",
+        )),
         Some(s) if s.converged => Ok(s),
         Some(s) => Err(Rejection::new(
             RejectionReason::NotConverged,

@@ -93,7 +93,7 @@ fn homography(plane: &[Vector2<f64>], pts: &[Correspondence]) -> Option<Matrix3<
 /// The two rotations (plane frame → camera) consistent with a plane point seen at normalised
 /// position v where the homography has Jacobian J.
 ///
-/// Derivation (after Collins and Bartoli 2014, section 4): with the plane point at depth d along
+/// Derivation (after Collins and Bartoli 2014): with the plane point at depth d along
 /// (v, 1), the projection's Jacobian is (1/d)[I | −v], so J = (1/d)[I | −v] R[:, 0:2]. Let Rv
 /// rotate the optical axis onto (v, 1) and write R = Rv Q; then [I | −v] Rv = [B | 0] and
 /// Q's top-left 2x2 block is d B⁻¹J. That block has largest singular value 1, which fixes d; the

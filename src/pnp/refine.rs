@@ -311,11 +311,13 @@ impl Solution {
 /// Robust refinement from one start: least squares over all points; if some point then fails the
 /// gate, a Huber stage over all points from the same start, then least squares over the gated
 /// inliers, re-gating at each new pose until the inlier set is stable (the inliers always refer to
-/// the final pose).
+/// the final pose). The inliers are first decided at the Huber optimum and, when that differs, at
+/// the start itself (with few points, or a keypoint very far off, outliers still pull the Huber
+/// optimum); the better of the two refinements wins.
 pub(crate) fn robust_solve(problem: &Problem, start: Pose, kind: PoseStart) -> Option<Solution> {
     let n = problem.pts.len();
-    let mut mask = vec![true; n];
-    let first = levenberg_marquardt(problem, &mask, Loss::Squared, start, tol::LM_STEP_CHI2)?;
+    let all = vec![true; n];
+    let first = levenberg_marquardt(problem, &all, Loss::Squared, start, tol::LM_STEP_CHI2)?;
     let mut iterations = first.iterations;
     if first.normal.max_sq <= problem.gate.threshold {
         // Every point passes: the gated cost is the chi-square itself.
@@ -323,31 +325,64 @@ pub(crate) fn robust_solve(problem: &Problem, start: Pose, kind: PoseStart) -> O
             pose: first.pose,
             normal: first.normal,
             gated_cost: first.normal.cost,
-            inliers: mask,
+            inliers: all,
             converged: first.converged,
             iterations,
             start: kind,
         });
     }
-    gate_points(problem, &first.pose, &mut mask);
-    mask.fill(true);
     let huber = Loss::Huber(problem.gate.huber_sigma);
     // From the start, not from the least-squares pose, which the outliers have pulled.
     // Only a basin is wanted here: a loose tolerance, and no need to have converged.
-    let robust = levenberg_marquardt(problem, &mask, huber, start, tol::HUBER_STEP_CHI2)?;
-    iterations += robust.iterations;
-    gate_points(problem, &robust.pose, &mut mask);
-    let mut pose = robust.pose;
+    let robust = levenberg_marquardt(problem, &all, huber, start, tol::HUBER_STEP_CHI2);
+    let mut seeds: Vec<(Pose, Vec<bool>)> = Vec::with_capacity(2);
+    if let Some(r) = &robust {
+        iterations += r.iterations;
+        seeds.push((r.pose, gate_mask(problem, &r.pose)));
+    }
+    let at_start = gate_mask(problem, &start);
+    if seeds.iter().all(|(_, m)| *m != at_start) {
+        seeds.push((start, at_start));
+    }
+    let mut best: Option<Solution> = None;
+    for (pose, mask) in seeds {
+        if let Some(s) = gated_refinement(problem, pose, mask, &mut iterations, kind) {
+            if best.as_ref().is_none_or(|b| s.better_than(b)) {
+                best = Some(s);
+            }
+        }
+    }
+    best.map(|mut s| {
+        s.iterations = iterations;
+        s
+    })
+}
+
+fn gate_mask(problem: &Problem, pose: &Pose) -> Vec<bool> {
+    let mut mask = vec![false; problem.pts.len()];
+    gate_points(problem, pose, &mut mask);
+    mask
+}
+
+/// Least squares over the inliers of `mask` from `pose`, re-gating at each new pose until the
+/// inlier set is stable; `None` with fewer than 4 inliers.
+fn gated_refinement(
+    problem: &Problem,
+    mut pose: Pose,
+    mut mask: Vec<bool>,
+    iterations: &mut usize,
+    kind: PoseStart,
+) -> Option<Solution> {
     let mut next_mask = mask.clone();
     for _ in 0..tol::PNP_GATE_ROUNDS {
         if mask.iter().filter(|&&m| m).count() < 4 {
             return None;
         }
         let run = levenberg_marquardt(problem, &mask, Loss::Squared, pose, tol::LM_STEP_CHI2)?;
-        iterations += run.iterations;
+        *iterations += run.iterations;
         gate_points(problem, &run.pose, &mut next_mask);
         if next_mask == mask {
-            return Some(finish(problem, run, mask, iterations, kind));
+            return Some(finish(problem, run, mask, *iterations, kind));
         }
         std::mem::swap(&mut mask, &mut next_mask);
         pose = run.pose;
@@ -357,8 +392,8 @@ pub(crate) fn robust_solve(problem: &Problem, start: Pose, kind: PoseStart) -> O
         return None;
     }
     let normal = accumulate(problem, &mask, Loss::Squared, &pose)?;
-    let run = done(pose, normal, false, iterations);
-    Some(finish(problem, run, mask, iterations, kind))
+    let run = done(pose, normal, false, *iterations);
+    Some(finish(problem, run, mask, *iterations, kind))
 }
 
 fn finish(

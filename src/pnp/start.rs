@@ -12,13 +12,42 @@ use super::refine::{gated_cost, Problem};
 use super::{epnp, planar, PoseStart};
 use crate::tol;
 
-/// Starts from all points, best first by gated cost (unscored when there is only one).
+/// Starts from all points, best first by gated cost (unscored when there is only one). Keypoints
+/// far outside the image (`plausible`) are left out of the start, not of the refinement.
 pub(crate) fn global_starts(problem: &Problem, geometry: &PointGeometry) -> Vec<(Pose, PoseStart)> {
-    let starts = starts_for(problem.pts, geometry, problem.noise_floor());
+    let starts = if problem.pts.iter().all(|c| plausible(problem, c)) {
+        starts_for(problem.pts, geometry, problem.noise_floor())
+    } else {
+        let kept: Vec<Correspondence> = plausible_points(problem).collect();
+        let g = PointGeometry::of(kept.iter().map(|c| c.model_m));
+        if kept.len() < 4 || g.check().is_err() {
+            return Vec::new();
+        }
+        starts_for(&kept, &g, problem.noise_floor())
+    };
     if starts.len() < 2 {
         return starts;
     }
     ranked(problem, starts)
+}
+
+/// Whether a keypoint could be a detection at all: within one image size of the image. A pixel
+/// beyond that (a corrupted detection) would wreck the algebraic start; the refinement still sees
+/// it and gates it out.
+fn plausible(problem: &Problem, c: &Correspondence) -> bool {
+    let (w, h) = (
+        f64::from(problem.camera.width),
+        f64::from(problem.camera.height),
+    );
+    (-w..=2.0 * w).contains(&c.px.x) && (-h..=2.0 * h).contains(&c.px.y)
+}
+
+fn plausible_points<'a>(problem: &'a Problem) -> impl Iterator<Item = Correspondence> + 'a {
+    problem
+        .pts
+        .iter()
+        .filter(|c| plausible(problem, c))
+        .copied()
 }
 
 /// Planar and near-planar sets get both IPPE solutions; non-planar and near-planar sets the
@@ -52,12 +81,13 @@ fn ranked(problem: &Problem, starts: Vec<(Pose, PoseStart)>) -> Vec<(Pose, PoseS
     scored.into_iter().map(|(_, p, k)| (p, k)).collect()
 }
 
-/// Starts from subsets that leave outliers out: every leave-one-out subset (one outlier cannot
-/// bias them) and, for 8 points or more, `tol::PNP_RANDOM_SUBSETS` random subsets of a third of
+/// Starts from subsets that leave outliers out (of the plausible keypoints): every leave-one-out
+/// subset (one outlier cannot bias them) and, for 8 points or more, `tol::PNP_RANDOM_SUBSETS` random subsets of a third of
 /// the points (at least 6) from a fixed seed, so that several outliers are also avoided by some
 /// subset. Scored by the gated cost over all points; the best `tol::PNP_SUBSET_REFINED` returned.
 pub(crate) fn subset_starts(problem: &Problem) -> Vec<(Pose, PoseStart)> {
-    let n = problem.pts.len();
+    let pool: Vec<Correspondence> = plausible_points(problem).collect();
+    let n = pool.len();
     if n < 5 {
         return Vec::new();
     }
@@ -66,7 +96,7 @@ pub(crate) fn subset_starts(problem: &Problem) -> Vec<(Pose, PoseStart)> {
     let mut starts = Vec::with_capacity(2 * n + 2 * tol::PNP_RANDOM_SUBSETS);
     let mut add = |keep: &mut dyn Iterator<Item = usize>, subset: &mut Vec<Correspondence>| {
         subset.clear();
-        subset.extend(keep.map(|i| problem.pts[i]));
+        subset.extend(keep.map(|i| pool[i]));
         let geometry = PointGeometry::of(subset.iter().map(|c| c.model_m));
         if geometry.check().is_ok() {
             starts.extend(starts_for(subset, &geometry, noise_floor));
