@@ -269,6 +269,15 @@ fn data_quality(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) 
             f.probe_ill_conditioned, f.drogue_ambiguous, f.outlier_keypoints
         ),
     ]);
+    if f.gross_error_frames > 0 {
+        rows.push(vec![
+            "set aside".into(),
+            format!(
+                "{} frames whose mount lies far from all their neighbours'",
+                f.gross_error_frames
+            ),
+        ]);
+    }
     rows.push(vec!["pixel sigma".into(), sigma_text(outcome, style)]);
     if let Some(nc) = &outcome.nominal_consistency {
         rows.push(vec![

@@ -244,6 +244,7 @@ pub fn shifted_outcome() -> AuditOutcome {
             probe_ill_conditioned: 4,
             drogue_ambiguous: 11,
             outlier_keypoints: 27,
+            gross_error_frames: 3,
         },
         pixel_sigma: PixelSigmaCheck {
             assumed: 1.0,

@@ -9,12 +9,11 @@ use crate::stats::consistency::{
     estimate_pixel_noise, frame_consistency, windowed_consistency, ChiSquareTest,
     PixelNoiseEstimate,
 };
-use crate::stats::drift::{
-    analyse_drift, DeviationSample, DeviationSeries, DriftAnalysis, DriftOptions,
-};
+use crate::stats::drift::Calibrators;
+use crate::stats::drift::{analyse_drift, DriftAnalysis, DriftOptions};
 use crate::stats::information::Information;
-use crate::stats::penalty::{CalibrationSettings, PenaltyCalibrator};
 use crate::stats::screening::screen_gross_errors;
+use crate::stats::series::{DeviationSample, DeviationSeries};
 use crate::stats::StatsError;
 
 use super::solve::Solved;
@@ -52,6 +51,14 @@ pub struct Analysis {
     pub frame_tests: Vec<ChiSquareTest>,
     pub windows: Vec<ChiSquareTest>,
     pub pixel: Option<PixelNoiseEstimate>,
+}
+
+/// The simulated null distributions (penalty, online threshold), shared by every audit in the
+/// process: they depend only on the series' length, dimension and correlation class, so repeated
+/// audits (sensitivity studies, tests) draw them once. Seeded, so sharing changes no result.
+fn calibrators() -> &'static Calibrators {
+    static SHARED: std::sync::OnceLock<Calibrators> = std::sync::OnceLock::new();
+    SHARED.get_or_init(Calibrators::default)
 }
 
 /// Runs every test on the solved session.
@@ -147,8 +154,7 @@ fn run_drift(
         return Ok(None);
     }
     let series = DeviationSeries::new(samples)?;
-    let calibrator = PenaltyCalibrator::new(CalibrationSettings::default());
-    analyse_drift(&series, &options, &calibrator).map(Some)
+    analyse_drift(&series, &options, calibrators()).map(Some)
 }
 
 fn segment_of_samples(drift: Option<&DriftAnalysis>, n: usize) -> Vec<usize> {

@@ -68,7 +68,7 @@ pub fn build(setup: &Setup, solved: &Solved, analysis: &Analysis, policy: &Polic
         segments,
         fixed_offset: fixed,
         truth,
-        online_alarm: None,
+        online_alarm: online_alarm(solved, analysis),
         warnings: Vec::new(),
         rows: Vec::new(),
     };
@@ -200,6 +200,20 @@ fn change_search(drift: Option<&DriftAnalysis>, policy: &Policy) -> ChangeSearch
         calibration_runs: d.penalty.runs as u64,
         noise_inflation: std::array::from_fn(|i| factors[i]),
     }
+}
+
+fn online_alarm(solved: &Solved, analysis: &Analysis) -> Option<OnlineAlarm> {
+    let online = analysis.drift.as_ref()?.online.as_ref()?;
+    let record = &solved.records[*analysis.sample_records.get(online.index?)?];
+    Some(OnlineAlarm {
+        detector: format!(
+            "MEWMA (lambda {}, threshold {:.2}, {} warm-up frames)",
+            online.lambda, online.threshold, online.warmup_samples
+        ),
+        frame: record.frame,
+        time_s: record.time_s,
+        delay_frames: online.delay_frames,
+    })
 }
 
 fn split(v: &Vector6<f64>) -> ([f64; 3], [f64; 3]) {
