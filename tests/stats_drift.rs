@@ -7,6 +7,8 @@ use mountdrift::stats::online::{OnlineCalibrator, OnlineSettings};
 use mountdrift::stats::penalty::{stream_seed, CalibrationSettings, PenaltyCalibrator};
 use mountdrift::stats::segments::LocationSettings;
 use mountdrift::stats::series::{DeviationSample, DeviationSeries};
+use std::sync::OnceLock;
+
 use nalgebra::{Matrix6, Vector6};
 use rand::{RngExt, SeedableRng};
 use rand_distr::{Distribution, StandardNormal};
@@ -75,17 +77,20 @@ fn samples(seed: u64, sc: &Scenario) -> Vec<DeviationSample> {
         .collect()
 }
 
-fn calibrators(runs: usize) -> Calibrators {
-    Calibrators {
+/// One set of simulated null distributions shared by all tests of this file (1000 runs each),
+/// so series of the same length and noise class reuse them.
+fn calibrators() -> &'static Calibrators {
+    static SHARED: OnceLock<Calibrators> = OnceLock::new();
+    SHARED.get_or_init(|| Calibrators {
         penalty: PenaltyCalibrator::new(CalibrationSettings {
-            runs,
+            runs: 1000,
             ..Default::default()
         }),
         online: OnlineCalibrator::new(OnlineSettings {
-            runs,
+            runs: 1000,
             ..Default::default()
         }),
-    }
+    })
 }
 
 fn fast_options(alpha: f64) -> DriftOptions {
@@ -103,14 +108,14 @@ fn fast_options(alpha: f64) -> DriftOptions {
 /// (at most 8 of 300). The calibrated online detector is held to the same bound.
 #[test]
 fn false_alarm_rate_holds_under_correlated_noise_and_vibration() {
-    let calibrators = calibrators(1000);
+    let calibrators = calibrators();
     let options = fast_options(0.01);
     let trials = 300;
     let (mut offline, mut online) = (0, 0);
     for i in 0..trials {
         let sc = Scenario::clean(400, 0.9, 1.5, 9.0);
         let series = DeviationSeries::new(&samples(stream_seed(31, i), &sc)).unwrap();
-        let analysis = analyse_drift(&series, &options, &calibrators).unwrap();
+        let analysis = analyse_drift(&series, &options, calibrators).unwrap();
         offline += usize::from(!analysis.change_points.is_empty());
         online += usize::from(analysis.online.as_ref().is_some_and(|a| a.index.is_some()));
     }
@@ -129,14 +134,14 @@ fn false_alarm_rate_holds_under_correlated_noise_and_vibration() {
 /// over 300 clean series lies within 3 binomial standard errors of 30.
 #[test]
 fn false_alarm_rate_is_close_to_alpha_for_white_noise() {
-    let calibrators = calibrators(1000);
+    let calibrators = calibrators();
     let options = fast_options(0.1);
     let trials = 300;
     let alarms = (0..trials)
         .filter(|&i| {
             let sc = Scenario::clean(300, 0.0, 0.0, 1.0);
             let series = DeviationSeries::new(&samples(stream_seed(32, i), &sc)).unwrap();
-            !analyse_drift(&series, &options, &calibrators)
+            !analyse_drift(&series, &options, calibrators)
                 .unwrap()
                 .change_points
                 .is_empty()
@@ -155,7 +160,7 @@ fn false_alarm_rate_is_close_to_alpha_for_white_noise() {
 /// and an online alarm after the change.
 #[test]
 fn detects_a_shift_near_the_true_frame() {
-    let calibrators = calibrators(1000);
+    let calibrators = calibrators();
     let sc = Scenario {
         n: 600,
         rho: 0.5,
@@ -166,7 +171,7 @@ fn detects_a_shift_near_the_true_frame() {
     };
     let samples = samples(5, &sc);
     let series = DeviationSeries::new(&samples).unwrap();
-    let analysis = analyse_drift(&series, &DriftOptions::default(), &calibrators).unwrap();
+    let analysis = analyse_drift(&series, &DriftOptions::default(), calibrators).unwrap();
     assert_eq!(
         analysis.change_points.len(),
         1,
@@ -201,7 +206,7 @@ fn detects_a_shift_near_the_true_frame() {
 /// hold the truth in at least 88 of 100 (binomial mean 95, 3 sd below).
 #[test]
 fn intervals_have_their_coverage() {
-    let calibrators = calibrators(600);
+    let calibrators = calibrators();
     let options = fast_options(0.01);
     let (mut shift_ok, mut frame_ok, mut mean_ok, mut found) = (0, 0, 0, 0);
     for i in 0..100u64 {
@@ -216,7 +221,7 @@ fn intervals_have_their_coverage() {
         };
         let samples = samples(stream_seed(41, i), &sc);
         let series = DeviationSeries::new(&samples).unwrap();
-        let analysis = analyse_drift(&series, &options, &calibrators).unwrap();
+        let analysis = analyse_drift(&series, &options, calibrators).unwrap();
         if let [cp] = analysis.change_points.as_slice() {
             found += 1;
             shift_ok +=
@@ -247,7 +252,7 @@ fn intervals_have_their_coverage() {
 /// reported.
 #[test]
 fn unobservable_directions_do_not_raise_change_points() {
-    let calibrators = calibrators(400);
+    let calibrators = calibrators();
     let mut rng = Pcg64Mcg::seed_from_u64(9);
     let mut data = samples(8, &Scenario::clean(300, 0.0, 0.0, 1.0));
     for (t, s) in data.iter_mut().enumerate() {
@@ -259,7 +264,7 @@ fn unobservable_directions_do_not_raise_change_points() {
         }
     }
     let series = DeviationSeries::new(&data).unwrap();
-    let analysis = analyse_drift(&series, &fast_options(0.01), &calibrators).unwrap();
+    let analysis = analyse_drift(&series, &fast_options(0.01), calibrators).unwrap();
     assert!(
         analysis.change_points.is_empty(),
         "{:?}",
@@ -280,7 +285,7 @@ fn unobservable_directions_do_not_raise_change_points() {
 /// covariance), the exact information-weighted cost finds the same shift.
 #[test]
 fn varying_information_uses_the_weighted_cost_and_finds_the_shift() {
-    let calibrators = calibrators(400);
+    let calibrators = calibrators();
     let sc = Scenario {
         n: 400,
         rho: 0.0,
@@ -297,7 +302,7 @@ fn varying_information_uses_the_weighted_cost_and_finds_the_shift() {
         s.covariance *= scale;
     }
     let series = DeviationSeries::new(&data).unwrap();
-    let analysis = analyse_drift(&series, &fast_options(0.01), &calibrators).unwrap();
+    let analysis = analyse_drift(&series, &fast_options(0.01), calibrators).unwrap();
     assert!(!analysis.common_information);
     assert_eq!(analysis.change_points.len(), 1);
     assert!((analysis.change_points[0].index as i64 - 230).abs() <= 3);

@@ -275,7 +275,7 @@ fn pairwise_block(a: &[f64]) -> f64 {
 /// `μ = (Σ Ω_i)⁺ Σ Ω_i y_i`, i.e. `C = Σ y_iᵀΩ_i y_i − bᵀ A⁺ b` with `A = Σ Ω_i`, `b = Σ Ω_i y_i`.
 ///
 /// Prefix sums of `Ω_i` (21 distinct entries), `Ω_i y_i` and `y_iᵀ Ω_i y_i` give each segment's
-/// sums in O(d²); the quadratic form takes one 6x6 Cholesky factorisation, or the eigen
+/// sums in O(d²); the quadratic form takes one packed 6x6 `LDLᵀ` factorisation, or the eigen
 /// pseudo-inverse when a segment's information is singular (a direction unobserved in all of
 /// its frames), so an unobservable direction adds neither cost nor degrees of freedom.
 #[derive(Debug, Clone)]
@@ -284,7 +284,9 @@ pub struct InformationCost {
     info_sums: Vec<[f64; 21]>,
     weighted_sums: Vec<Vector6<f64>>,
     square_sums: Vec<f64>,
-    padding: Matrix6<f64>,
+    /// 1 on the diagonal of the inactive coordinates (so that the factorisation sees a regular
+    /// matrix there), 0 elsewhere.
+    padding: [f64; 6],
 }
 
 const UPPER: [(usize, usize); 21] = {
@@ -331,7 +333,7 @@ impl InformationCost {
             weighted_sums[i + 1] = weighted_sums[i] + wy;
             square_sums[i + 1] = square_sums[i] + yi.dot(&wy);
         }
-        let padding = Matrix6::from_fn(|r, c| if r == c && r >= active_dim { 1.0 } else { 0.0 });
+        let padding = std::array::from_fn(|r| if r >= active_dim { 1.0 } else { 0.0 });
         Ok(Self {
             n,
             info_sums,
@@ -363,10 +365,8 @@ impl SegmentCost for InformationCost {
     fn cost(&self, start: usize, end: usize) -> f64 {
         let (lo, hi) = (&self.info_sums[start], &self.info_sums[end]);
         let mut packed: [f64; 21] = std::array::from_fn(|k| hi[k] - lo[k]);
-        for (k, &(r, c)) in UPPER.iter().enumerate() {
-            if r == c {
-                packed[k] += self.padding[(r, r)];
-            }
+        for (r, pad) in self.padding.iter().enumerate() {
+            packed[packed_index(r, r)] += pad;
         }
         let b = self.weighted_sums[end] - self.weighted_sums[start];
         let q = self.square_sums[end] - self.square_sums[start];

@@ -18,7 +18,10 @@
 //! Series longer than `max_simulated_samples` are simulated at that length and the rate is
 //! scaled by `ln(n_sim/m) / ln(n/m)`: the tail probability of the maximal likelihood-ratio scan
 //! grows like the logarithm of the range of segment lengths it covers (James, James & Siegmund
-//! 1987, Biometrika 74:71-83, the approximation for the maximal chi-square statistic).
+//! 1987, Biometrika 74:71-83, the approximation for the maximal chi-square statistic). With the
+//! studentisation the longer series is also estimated more precisely, which the scaling ignores,
+//! so the extrapolation errs towards fewer false alarms (white noise calibrated at 500 samples
+//! for 2000 at α = 0.1 gave 3.7% on 1000 direct simulations; AR(1) ρ = 0.9 gave none).
 
 use std::collections::HashMap;
 use std::sync::{Arc, Mutex};

@@ -235,11 +235,11 @@ impl EffectiveModel {
                 &self.effective_whitened(),
             )?))
         } else {
-            Ok(EffectiveCost::PerFrame(Box::new(InformationCost::new(
+            Ok(EffectiveCost::PerFrame(InformationCost::new(
                 &self.z,
                 &self.effective,
                 self.whitening.dim,
-            )?)))
+            )?))
         }
     }
 
@@ -271,7 +271,7 @@ impl EffectiveModel {
 #[derive(Debug, Clone)]
 pub enum EffectiveCost {
     Common(L2Cost),
-    PerFrame(Box<InformationCost>),
+    PerFrame(InformationCost),
 }
 
 impl SegmentCost for EffectiveCost {
