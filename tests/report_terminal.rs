@@ -55,6 +55,7 @@ Data quality
   frames       3000 read, 2950 solved (2920 with the drogue), 50 rejected
   rejected     probe: too few points 50
   flags        4 probe ill-conditioned, 11 drogue ambiguous, 27 outlier keypoints dropped
+  set aside    3 frames whose mount lies far from all their neighbours'
   pixel sigma  stated 1.00 px, estimated 1.12 px (95%: 1.10-1.14): NOT consistent
   vs nominal   1120 of 2950 frames over the d2 threshold 16.81; session p = 3.2e-12
 
