@@ -2,4 +2,6 @@
 
 pub mod audit;
 pub mod camera;
+pub mod compare;
 pub mod simulate;
+pub mod survey;
