@@ -128,7 +128,10 @@ fn minimal_session_loads_and_writes_report() {
         .collect();
     written.sort();
     for name in ["frames.csv", "report.html", "report.json"] {
-        assert!(written.iter().any(|w| w == name), "{name} missing from {written:?}");
+        assert!(
+            written.iter().any(|w| w == name),
+            "{name} missing from {written:?}"
+        );
     }
     assert!(written.iter().all(|w| !w.ends_with(".part")), "{written:?}");
     let report: serde_json::Value =
