@@ -2,7 +2,5 @@
 
 pub mod audit;
 pub mod camera;
-pub mod compare;
 pub mod overlay;
 pub mod simulate;
-pub mod survey;
