@@ -2,5 +2,4 @@
 
 pub mod audit;
 pub mod camera;
-pub mod overlay;
 pub mod simulate;
