@@ -2,9 +2,6 @@
 //! library's validated options, and the glue that runs a job, renders its outcome, writes output
 //! files and picks the exit code (0 gate pass, 1 gate fail, 2 bad input or usage).
 
-// The error is built once, printed and the process exits: its size costs nothing.
-#![allow(clippy::result_large_err)]
-
 use std::io::{self, Write};
 use std::path::PathBuf;
 use std::process::ExitCode;

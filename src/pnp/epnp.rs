@@ -390,26 +390,8 @@ fn horn_rotation(m: &Matrix3<f64>) -> Option<Matrix3<f64>> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use nalgebra::{Rotation3, Vector2};
-
-    fn correspondences(model: &[[f64; 3]], truth: &Pose) -> Vec<Correspondence> {
-        model
-            .iter()
-            .enumerate()
-            .map(|(i, p)| {
-                let m = Vector3::from(*p);
-                let x = truth.transform(&m);
-                let normalized = Vector2::new(x.x / x.z, x.y / x.z);
-                Correspondence {
-                    model_m: m,
-                    px: normalized,
-                    inv_sigma: 1.0,
-                    normalized,
-                    observation: i,
-                }
-            })
-            .collect()
-    }
+    use crate::pnp::prepare::exact_correspondences;
+    use nalgebra::Rotation3;
 
     fn truth() -> Pose {
         Pose {
@@ -432,7 +414,7 @@ mod tests {
             [-0.3, 0.2, 0.25],
             [0.1, 0.35, -0.2],
         ];
-        let pts = correspondences(&model, &truth());
+        let pts = exact_correspondences(&model, &truth());
         let g = PointGeometry::of(pts.iter().map(|c| c.model_m));
         for accept in [0.0, 1.0] {
             let best = epnp_starts(&pts, &g, accept)[0];
@@ -463,7 +445,7 @@ mod tests {
             [0.05, 0.1, 0.4],
         ];
         for n in [5, 4] {
-            let pts = correspondences(&model[..n], &truth());
+            let pts = exact_correspondences(&model[..n], &truth());
             let g = PointGeometry::of(pts.iter().map(|c| c.model_m));
             let err = epnp_starts(&pts, &g, 0.0)[0].minus(&truth()).norm();
             eprintln!("n={n} {err:e}");

@@ -150,6 +150,7 @@ fn translation_for(
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::pnp::prepare::exact_correspondences;
 
     #[test]
     fn both_planar_solutions_of_a_tilted_square() {
@@ -166,22 +167,7 @@ mod tests {
             [-0.1, -0.1, 0.0],
             [0.05, 0.02, 0.0],
         ];
-        let pts: Vec<Correspondence> = model
-            .iter()
-            .enumerate()
-            .map(|(i, p)| {
-                let m = Vector3::from(*p);
-                let x = truth.transform(&m);
-                let normalized = Vector2::new(x.x / x.z, x.y / x.z);
-                Correspondence {
-                    model_m: m,
-                    px: normalized,
-                    inv_sigma: 1.0,
-                    normalized,
-                    observation: i,
-                }
-            })
-            .collect();
+        let pts = exact_correspondences(&model, &truth);
         let g = PointGeometry::of(pts.iter().map(|c| c.model_m));
         let [a, b] = ippe_starts(&pts, &g);
         let (a, b) = (a.unwrap(), b.unwrap());

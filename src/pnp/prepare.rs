@@ -195,6 +195,31 @@ impl PointGeometry {
     }
 }
 
+/// Noise-free correspondences of `model` seen from `truth`, with unit weights: the shared input of
+/// the start solvers' unit tests.
+#[cfg(test)]
+pub(crate) fn exact_correspondences(
+    model: &[[f64; 3]],
+    truth: &super::pose::Pose,
+) -> Vec<Correspondence> {
+    model
+        .iter()
+        .enumerate()
+        .map(|(i, p)| {
+            let m = Vector3::from(*p);
+            let x = truth.transform(&m);
+            let normalized = Vector2::new(x.x / x.z, x.y / x.z);
+            Correspondence {
+                model_m: m,
+                px: normalized,
+                inv_sigma: 1.0,
+                normalized,
+                observation: i,
+            }
+        })
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
