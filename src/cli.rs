@@ -6,7 +6,7 @@ use std::io::{self, Write};
 use std::path::PathBuf;
 use std::process::ExitCode;
 
-use clap::{Args, Parser, Subcommand};
+use clap::{Args, CommandFactory, Parser, Subcommand, ValueEnum};
 use mountdrift::commands::audit::{self, AuditError, AuditOptions, Gate, SessionSource};
 use mountdrift::report::{
     write_audit_json, write_audit_summary, AuditFile, AuditReport, TerminalStyle,
@@ -14,7 +14,9 @@ use mountdrift::report::{
 use mountdrift::session::{InputError, Policy};
 
 use mountdrift::commands::camera::{self, FromExifError, FromExifOptions};
+use mountdrift::commands::overlay::{self, OverlayError, OverlayOptions};
 use mountdrift::commands::simulate::{self, ScenarioSource, SimulateOptions};
+use mountdrift::report::overlay::{overlay_text_lines, write_overlay_png};
 use mountdrift::sim::SimError;
 
 use crate::output::{self, OutputError, StagedOutputs};
@@ -39,6 +41,49 @@ pub enum Command {
     /// Camera intrinsics helpers.
     #[command(subcommand)]
     Camera(CameraCommand),
+    /// Draw one frame's detections, reprojected models and the fixed-offset probe on its image.
+    Overlay(OverlayArgs),
+    /// Print a shell completion script to standard output.
+    Completions(CompletionsArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct OverlayArgs {
+    /// The session manifest (YAML); it must name a `frames` folder.
+    pub session: PathBuf,
+    /// The frame number, as in the detections and the image file names.
+    #[arg(long, value_name = "N")]
+    pub frame: u64,
+    /// The PNG image to write.
+    #[arg(long, value_name = "IMAGE.png")]
+    pub out: PathBuf,
+    /// Print the overlay's numbers as JSON instead of a summary.
+    #[arg(long)]
+    pub json: bool,
+}
+
+impl From<&OverlayArgs> for OverlayOptions {
+    fn from(args: &OverlayArgs) -> Self {
+        OverlayOptions {
+            session: args.session.clone(),
+            frame: args.frame,
+        }
+    }
+}
+
+#[derive(Debug, Args)]
+pub struct CompletionsArgs {
+    /// The shell to complete for.
+    #[arg(value_enum)]
+    pub shell: CompletionShell,
+}
+
+/// Shells with completion scripts.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum CompletionShell {
+    Bash,
+    Zsh,
+    Fish,
 }
 
 #[derive(Debug, Args)]
@@ -61,6 +106,9 @@ pub struct SimulateArgs {
     /// Also write poses.csv: the exact true poses of both objects in the camera frame.
     #[arg(long)]
     pub poses: bool,
+    /// Render a synthetic image of every Nth frame into the session's frames folder.
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u64).range(1..))]
+    pub render_every: Option<u64>,
     /// Print what was written as JSON.
     #[arg(long)]
     pub json: bool,
@@ -79,6 +127,7 @@ impl From<&SimulateArgs> for SimulateOptions {
             seed: args.seed,
             duration_s: args.duration,
             poses: args.poses,
+            render_every: args.render_every,
         }
     }
 }
@@ -149,6 +198,8 @@ pub enum CliError {
     FromExif(#[from] FromExifError),
     #[error(transparent)]
     Simulate(#[from] SimError),
+    #[error(transparent)]
+    Overlay(#[from] OverlayError),
     #[error("cannot render the output: {0}")]
     Render(String),
     #[error("cannot write to standard output: {0}")]
@@ -161,7 +212,40 @@ pub fn run(cli: Cli) -> Result<ExitCode, CliError> {
         Command::Audit(args) => run_audit(&args),
         Command::Simulate(args) => run_simulate(&args),
         Command::Camera(CameraCommand::FromExif(args)) => run_from_exif(&args),
+        Command::Overlay(args) => run_overlay(&args),
+        Command::Completions(args) => run_completions(&args),
     }
+}
+
+fn run_overlay(args: &OverlayArgs) -> Result<ExitCode, CliError> {
+    let outcome = overlay::run(&OverlayOptions::from(args))?;
+    output::write_file_atomically(&args.out, |w| write_overlay_png(w, &outcome))?;
+    let mut stdout = io::stdout().lock();
+    let printed = if args.json {
+        serde_json::to_writer_pretty(&mut stdout, &outcome)
+            .map_err(io::Error::from)
+            .and_then(|()| writeln!(stdout))
+    } else {
+        let mut text = format!("wrote {}\n", args.out.display());
+        for line in overlay_text_lines(&outcome) {
+            text.push_str(&format!("  {line}\n"));
+        }
+        stdout.write_all(text.as_bytes())
+    };
+    finish_stdout(printed)
+}
+
+fn run_completions(args: &CompletionsArgs) -> Result<ExitCode, CliError> {
+    use clap_complete::Shell;
+    let shell = match args.shell {
+        CompletionShell::Bash => Shell::Bash,
+        CompletionShell::Zsh => Shell::Zsh,
+        CompletionShell::Fish => Shell::Fish,
+    };
+    // Generated into memory first: clap_complete panics on a failed write (a closed pipe).
+    let mut script = Vec::new();
+    clap_complete::generate(shell, &mut Cli::command(), "mountdrift", &mut script);
+    finish_stdout(io::stdout().lock().write_all(&script))
 }
 
 fn run_simulate(args: &SimulateArgs) -> Result<ExitCode, CliError> {

@@ -2,4 +2,5 @@
 
 pub mod audit;
 pub mod camera;
+pub mod overlay;
 pub mod simulate;

@@ -29,6 +29,8 @@ pub struct SimulateOptions {
     pub duration_s: Option<f64>,
     /// Also write `poses.csv` with the exact true poses of both objects in the camera frame.
     pub poses: bool,
+    /// Replaces the scenario's `render_every`: a synthetic image of every Nth frame.
+    pub render_every: Option<u64>,
 }
 
 impl SimulateOptions {
@@ -40,6 +42,7 @@ impl SimulateOptions {
             seed: None,
             duration_s: None,
             poses: false,
+            render_every: None,
         }
     }
 }
@@ -71,6 +74,9 @@ pub fn run(options: &SimulateOptions) -> Result<SimulateOutcome, SimError> {
     if let Some(duration_s) = options.duration_s {
         scenario.duration_s = duration_s;
     }
+    if let Some(every) = options.render_every {
+        scenario.render_every = Some(every);
+    }
     let simulation = Simulation::new(&scenario)?;
     let counts = writer::write_session(&simulation, &scenario, &options.out_dir, options.poses)?;
     Ok(SimulateOutcome {
@@ -84,7 +90,7 @@ pub fn run(options: &SimulateOptions) -> Result<SimulateOutcome, SimError> {
         counts,
         mount_events: simulation.mount_event_count(),
         nominal_error: scenario.nominal_error.is_some(),
-        files: written_files(options.poses),
+        files: written_files(options.poses, scenario.render_every.is_some()),
     })
 }
 
@@ -99,7 +105,7 @@ pub fn load(source: &ScenarioSource) -> Result<Scenario, SimError> {
     }
 }
 
-fn written_files(poses: bool) -> Vec<String> {
+fn written_files(poses: bool, frames: bool) -> Vec<String> {
     let mut files = vec![
         writer::SESSION_FILE,
         writer::CAMERA_FILE,
@@ -112,6 +118,9 @@ fn written_files(poses: bool) -> Vec<String> {
     ];
     if poses {
         files.push(writer::POSES_FILE);
+    }
+    if frames {
+        files.push(crate::sim::render::FRAMES_DIR);
     }
     files.into_iter().map(String::from).collect()
 }

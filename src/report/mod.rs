@@ -26,6 +26,7 @@ mod format;
 mod frames_csv;
 mod html;
 mod html_sections;
+pub mod overlay;
 mod plots;
 mod scale;
 mod style;

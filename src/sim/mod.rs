@@ -12,6 +12,7 @@ pub mod imaging;
 pub mod motion;
 pub mod noise;
 pub mod presets;
+pub mod render;
 pub mod scenario;
 mod validate;
 pub mod writer;

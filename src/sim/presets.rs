@@ -90,6 +90,7 @@ fn demo() -> Scenario {
             translation_mm: [1.8, -2.6, 3.1],
             rotation_deg: [0.22, -0.35, 0.12],
         })],
+        render_every: None,
         origin: String::new(),
     }
 }
@@ -126,6 +127,7 @@ fn clean() -> Scenario {
         noise: realistic_noise(0.5, 0.3, 0.8),
         nominal_error: None,
         mount_events: Vec::new(),
+        render_every: None,
         origin: String::new(),
     }
 }
@@ -172,6 +174,7 @@ fn creep() -> Scenario {
             translation_mm: [0.0, 0.0, 4.0],
             rotation_deg: [0.0, 0.5, 0.0],
         })],
+        render_every: None,
         origin: String::new(),
     }
 }
@@ -215,6 +218,7 @@ fn loose() -> Scenario {
             from_s: None,
             to_s: None,
         })],
+        render_every: None,
         origin: String::new(),
     }
 }
@@ -259,6 +263,7 @@ fn wrong_nominal() -> Scenario {
             rotation_deg: [0.8, -0.5, 0.3],
         }),
         mount_events: Vec::new(),
+        render_every: None,
         origin: String::new(),
     }
 }

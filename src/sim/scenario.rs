@@ -53,6 +53,10 @@ pub struct Scenario {
     /// Changes of the true mount during the session, applied in list order.
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub mount_events: Vec<MountEvent>,
+    /// Render a synthetic image of every Nth frame (frame numbers divisible by N) into the
+    /// session's `frames` folder; no images when absent.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub render_every: Option<u64>,
     /// Where the scenario came from (a file path or a preset), for error messages.
     #[serde(skip)]
     pub origin: String,

@@ -7,6 +7,9 @@
 //! decimals, times with 6 (s), truth positions with 6 (m) and angles with 6 (deg). The optional `poses.csv`
 //! (true `T_CB` and `T_CD` as rotation vectors and translations) uses the shortest decimal that
 //! reads back to the same double, so a reference projection can start from exact poses.
+//!
+//! With the scenario's `render_every: N`, a synthetic image of every Nth frame goes into the
+//! `frames` folder (see [`super::render`]) and the manifest names it.
 
 use std::fs::File;
 use std::io::{BufWriter, Write};
@@ -19,7 +22,8 @@ use crate::model::KeypointModel;
 use crate::session::{CameraFile, FrameDetections, ModelFile, MountFile};
 
 use super::csvfmt::RowBuf;
-use super::{Scenario, SimError, Simulation, TruthFrame};
+use super::render::{FrameFolder, FRAMES_DIR};
+use super::{Scenario, SimError, SimFrame, Simulation, TruthFrame};
 
 pub const SESSION_FILE: &str = "session.yaml";
 pub const CAMERA_FILE: &str = "camera.yaml";
@@ -51,6 +55,8 @@ pub struct SessionCounts {
     pub detection_rows: u64,
     pub probe_rows: u64,
     pub drogue_rows: u64,
+    /// Frame images written into the `frames` folder.
+    pub frames_rendered: u64,
 }
 
 /// The session manifest as written (paths relative to it).
@@ -62,6 +68,8 @@ struct Manifest<'a> {
     mount: &'a str,
     detections: &'a str,
     truth: &'a str,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    frames: Option<&'a str>,
 }
 
 /// Writes the whole session into `out_dir` (created if needed); `poses` adds `poses.csv`.
@@ -97,13 +105,48 @@ pub fn write_session(
         "nominal mount",
     )?;
     staged.text(SCENARIO_FILE, &scenario.to_yaml()?)?;
-    let counts = staged.streams(sim, poses)?;
-    staged.text(SESSION_FILE, &manifest_text(scenario, sim)?)?;
+    let mut frames = frame_folder(sim, scenario, out_dir)?;
+    let mut counts = staged.streams(sim, poses, frames.as_mut())?;
+    staged.text(
+        SESSION_FILE,
+        &manifest_text(scenario, sim, frames.is_some())?,
+    )?;
+    if let Some(folder) = frames {
+        counts.frames_rendered = folder.rendered();
+        folder.commit(out_dir).map_err(|source| SimError::Write {
+            path: out_dir.join(FRAMES_DIR),
+            source,
+        })?;
+    }
     staged.commit()?;
     Ok(counts)
 }
 
-fn manifest_text(scenario: &Scenario, sim: &Simulation) -> Result<String, SimError> {
+/// The folder frame images are rendered into, when the scenario asks for them.
+fn frame_folder(
+    sim: &Simulation,
+    scenario: &Scenario,
+    out_dir: &Path,
+) -> Result<Option<FrameFolder>, SimError> {
+    let Some(every) = scenario.render_every else {
+        return Ok(None);
+    };
+    if every == 0 {
+        return Err(SimError::Invalid {
+            origin: scenario.origin.clone(),
+            field: "render_every".into(),
+            reason: "expected a whole number of frames, at least 1, found 0".into(),
+        });
+    }
+    FrameFolder::create(sim, every, out_dir)
+        .map(Some)
+        .map_err(|source| SimError::Write {
+            path: out_dir.join(FRAMES_DIR),
+            source,
+        })
+}
+
+fn manifest_text(scenario: &Scenario, sim: &Simulation, frames: bool) -> Result<String, SimError> {
     let manifest = Manifest {
         camera: CAMERA_FILE,
         probe: PROBE_FILE,
@@ -111,6 +154,7 @@ fn manifest_text(scenario: &Scenario, sim: &Simulation) -> Result<String, SimErr
         mount: MOUNT_FILE,
         detections: DETECTIONS_FILE,
         truth: TRUTH_FILE,
+        frames: frames.then_some(FRAMES_DIR),
     };
     let body = serde_saphyr::to_string(&manifest).map_err(|e| SimError::Serialize {
         what: "session manifest".into(),
@@ -180,8 +224,14 @@ impl<'a> Staged<'a> {
         self.text(name, &text)
     }
 
-    /// Streams detections, truth (and poses) through buffered temporary files.
-    fn streams(&mut self, sim: &Simulation, poses: bool) -> Result<SessionCounts, SimError> {
+    /// Streams detections, truth (and poses) through buffered temporary files, and offers every
+    /// frame to the frame images, if any.
+    fn streams(
+        &mut self,
+        sim: &Simulation,
+        poses: bool,
+        mut frames: Option<&mut FrameFolder>,
+    ) -> Result<SessionCounts, SimError> {
         let detections = self.create(DETECTIONS_FILE)?;
         let truth = self.create(TRUTH_FILE)?;
         let pose_file = if poses {
@@ -195,7 +245,10 @@ impl<'a> Staged<'a> {
             poses: pose_file.as_ref().map(buffered),
         };
         let counts = sinks
-            .write_all(sim)
+            .write_all_with(sim, |frame| match frames.as_deref_mut() {
+                Some(folder) => folder.offer(&frame.truth),
+                None => Ok(()),
+            })
             .and_then(|c| sinks.flush().map(|()| c))
             .map_err(|source| SimError::Write {
                 path: self.dir.to_path_buf(),
@@ -237,6 +290,15 @@ pub struct CsvSinks<W: Write> {
 impl<W: Write> CsvSinks<W> {
     /// Writes the headers and every frame of the simulation.
     pub fn write_all(&mut self, sim: &Simulation) -> std::io::Result<SessionCounts> {
+        self.write_all_with(sim, |_| Ok(()))
+    }
+
+    /// As [`write_all`](Self::write_all), also handing every frame to `each` once written.
+    pub fn write_all_with(
+        &mut self,
+        sim: &Simulation,
+        mut each: impl FnMut(&SimFrame) -> std::io::Result<()>,
+    ) -> std::io::Result<SessionCounts> {
         writeln!(self.detections, "{DETECTIONS_HEADER}")?;
         writeln!(self.truth, "{TRUTH_HEADER}")?;
         if let Some(p) = &mut self.poses {
@@ -254,6 +316,7 @@ impl<W: Write> CsvSinks<W> {
             if let Some(p) = &mut self.poses {
                 write_pose_row(p, &frame.truth)?;
             }
+            each(&frame)?;
             counts.frames_written += 1;
             counts.probe_rows += d.probe.len() as u64;
             counts.drogue_rows += d.drogue.len() as u64;
