@@ -9,13 +9,17 @@ use std::process::ExitCode;
 use clap::{Args, CommandFactory, Parser, Subcommand, ValueEnum};
 use mountdrift::commands::audit::{self, AuditError, AuditOptions, Gate, SessionSource};
 use mountdrift::report::{
-    write_audit_json, write_audit_summary, AuditFile, AuditReport, TerminalStyle,
+    compare_files, survey_mount_yaml, write_audit_json, write_audit_summary, write_compare_json,
+    write_compare_summary, write_survey_json, write_survey_summary, AuditFile, AuditReport,
+    TerminalStyle,
 };
 use mountdrift::session::{InputError, Policy};
 
 use mountdrift::commands::camera::{self, FromExifError, FromExifOptions};
+use mountdrift::commands::compare::{self, CompareError, CompareOptions};
 use mountdrift::commands::overlay::{self, OverlayError, OverlayOptions};
 use mountdrift::commands::simulate::{self, ScenarioSource, SimulateOptions};
+use mountdrift::commands::survey::{self, SurveyError, SurveyOptions};
 use mountdrift::report::overlay::{overlay_text_lines, write_overlay_png};
 use mountdrift::sim::SimError;
 
@@ -38,6 +42,13 @@ pub enum Command {
     Audit(AuditArgs),
     /// Write a simulated session (with truth) from a scenario file or a built-in preset.
     Simulate(SimulateArgs),
+    /// Estimate the as-installed mount from a session and write it as a mount file (a new
+    /// nominal with its uncertainty). Exit 0 when the precision rule is met, 1 when the file is
+    /// written but the session was too short for it, 2 on bad input.
+    Survey(SurveyArgs),
+    /// Maintenance gate: compare the mount of AFTER with BEFORE (sessions or survey files)
+    /// against the policy tolerances. Exit 0 unchanged, 1 changed or inconclusive, 2 bad input.
+    Compare(CompareArgs),
     /// Camera intrinsics helpers.
     #[command(subcommand)]
     Camera(CameraCommand),
@@ -132,6 +143,68 @@ impl From<&SimulateArgs> for SimulateOptions {
     }
 }
 
+#[derive(Debug, Args)]
+pub struct SurveyArgs {
+    /// The session manifest (YAML).
+    pub session: PathBuf,
+    /// Where to write the surveyed mount (YAML, the session mount format).
+    #[arg(long, value_name = "MOUNT.yaml")]
+    pub out: PathBuf,
+    /// Tolerances the precision is judged against (YAML); missing keys take their defaults.
+    #[arg(long, value_name = "FILE")]
+    pub policy: Option<PathBuf>,
+    /// Print the survey report as JSON instead of the summary.
+    #[arg(long)]
+    pub json: bool,
+}
+
+impl TryFrom<&SurveyArgs> for SurveyOptions {
+    type Error = InputError;
+
+    fn try_from(args: &SurveyArgs) -> Result<Self, InputError> {
+        Ok(SurveyOptions {
+            session: args.session.clone(),
+            policy: load_policy(args.policy.as_deref())?,
+        })
+    }
+}
+
+#[derive(Debug, Args)]
+pub struct CompareArgs {
+    /// The reference: a session manifest or a survey mount file.
+    pub before: PathBuf,
+    /// The session (or survey file) after the hardware change.
+    pub after: PathBuf,
+    /// Tolerances (YAML): max_translation_mm, max_rotation_deg; missing keys take defaults.
+    #[arg(long, value_name = "FILE")]
+    pub policy: Option<PathBuf>,
+    /// Print the comparison as JSON instead of the summary.
+    #[arg(long)]
+    pub json: bool,
+    /// Write report.json, report.html and plot_change.svg into this folder.
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+}
+
+impl TryFrom<&CompareArgs> for CompareOptions {
+    type Error = InputError;
+
+    fn try_from(args: &CompareArgs) -> Result<Self, InputError> {
+        Ok(CompareOptions {
+            before: args.before.clone(),
+            after: args.after.clone(),
+            policy: load_policy(args.policy.as_deref())?,
+        })
+    }
+}
+
+fn load_policy(path: Option<&std::path::Path>) -> Result<Policy, InputError> {
+    match path {
+        Some(path) => Policy::load(path),
+        None => Ok(Policy::default()),
+    }
+}
+
 #[derive(Debug, Subcommand)]
 pub enum CameraCommand {
     /// Approximate pinhole intrinsics from an image's EXIF focal-length tags.
@@ -200,6 +273,10 @@ pub enum CliError {
     Simulate(#[from] SimError),
     #[error(transparent)]
     Overlay(#[from] OverlayError),
+    #[error(transparent)]
+    Survey(#[from] SurveyError),
+    #[error(transparent)]
+    Compare(#[from] CompareError),
     #[error("cannot render the output: {0}")]
     Render(String),
     #[error("cannot write to standard output: {0}")]
@@ -211,6 +288,8 @@ pub fn run(cli: Cli) -> Result<ExitCode, CliError> {
     match cli.command {
         Command::Audit(args) => run_audit(&args),
         Command::Simulate(args) => run_simulate(&args),
+        Command::Survey(args) => run_survey(&args),
+        Command::Compare(args) => run_compare(&args),
         Command::Camera(CameraCommand::FromExif(args)) => run_from_exif(&args),
         Command::Overlay(args) => run_overlay(&args),
         Command::Completions(args) => run_completions(&args),
@@ -324,6 +403,59 @@ fn run_audit(args: &AuditArgs) -> Result<ExitCode, CliError> {
         write_audit_json(&mut stdout, &outcome)
     } else {
         write_audit_summary(&mut stdout, &outcome, TerminalStyle::detect())
+    };
+    finish_stdout(printed)?;
+    Ok(match outcome.gate {
+        Gate::Pass => ExitCode::SUCCESS,
+        Gate::Fail => ExitCode::from(1),
+    })
+}
+
+fn run_survey(args: &SurveyArgs) -> Result<ExitCode, CliError> {
+    let options = SurveyOptions::try_from(args)?;
+    let bar = progress::FrameProgress::new(!args.json);
+    let outcome = survey::run(&options, &|n| bar.update(n))?;
+    bar.finish();
+    let yaml = survey_mount_yaml(&outcome).map_err(|e| CliError::Render(e.to_string()))?;
+    output::write_file_atomically(&args.out, |w| w.write_all(yaml.as_bytes()))?;
+    let mut stdout = io::stdout().lock();
+    let printed = if args.json {
+        write_survey_json(&mut stdout, &outcome)
+    } else {
+        write_survey_summary(&mut stdout, &outcome, TerminalStyle::detect()).and_then(|()| {
+            writeln!(
+                stdout,
+                "\nwrote {}; use it as the session's `mount:` or as BEFORE of mountdrift compare",
+                args.out.display()
+            )
+        })
+    };
+    finish_stdout(printed)?;
+    Ok(if outcome.precision.sufficient {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(1)
+    })
+}
+
+fn run_compare(args: &CompareArgs) -> Result<ExitCode, CliError> {
+    let options = CompareOptions::try_from(args)?;
+    let bar = progress::FrameProgress::new(!args.json);
+    let outcome = compare::run(&options, &|n| bar.update(n))?;
+    bar.finish();
+    if let Some(dir) = &args.out {
+        let files = compare_files(&outcome).map_err(|e| CliError::Render(e.to_string()))?;
+        let mut outputs = StagedOutputs::create(dir)?;
+        for (name, bytes) in files {
+            outputs.add(&name, |w| w.write_all(&bytes))?;
+        }
+        outputs.commit()?;
+    }
+    let mut stdout = io::stdout().lock();
+    let printed = if args.json {
+        write_compare_json(&mut stdout, &outcome)
+    } else {
+        write_compare_summary(&mut stdout, &outcome, TerminalStyle::detect())
     };
     finish_stdout(printed)?;
     Ok(match outcome.gate {

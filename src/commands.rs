@@ -2,5 +2,7 @@
 
 pub mod audit;
 pub mod camera;
+pub mod compare;
 pub mod overlay;
 pub mod simulate;
+pub mod survey;

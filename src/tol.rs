@@ -227,3 +227,21 @@ pub const AXIS_OBSERVABLE_RESIDUAL: f64 = 1e-6;
 /// lets the change-point search use the plain squared-error cost after one common whitening
 /// (identical in exact arithmetic; the difference is rounding).
 pub const COMMON_INFORMATION_REL: f64 = 1e-9;
+
+/// Two camera intrinsics (focal lengths, principal point, skew, distortion coefficients) count
+/// as the same when they differ by at most this fraction of the larger magnitude (at least 1):
+/// the same calibration read back from text, not a recalibration, which moves them by 1e-4 or
+/// more.
+pub const CAMERA_SAME_REL: f64 = 1e-9;
+
+/// A frame whose probe pose sits more than this many robust standard deviations (1.4826 × the
+/// median absolute deviation of its neighbours) from its neighbours' median on some axis is a
+/// gross pose error and is left out of a survey. For Gaussian noise, 10 sigma happens with
+/// probability below 1e-22 per axis; a genuine step of the mount moves the neighbours' median
+/// with it and is not flagged.
+pub const GROSS_FRAME_ROBUST_SIGMA: f64 = 10.0;
+
+/// Neighbours on each side of a frame in the gross-frame screen: 15 (a window of 31 solved
+/// frames, about one second at 30 Hz) keeps the median and MAD of the window robust to several
+/// bad frames while following a real mount step within half a window.
+pub const GROSS_FRAME_HALF_WINDOW: usize = 15;

@@ -424,12 +424,7 @@ fn scenario_paths_resolve_relative_to_the_file() {
         serde_saphyr::to_string(camera).unwrap(),
     )
     .unwrap();
-    let mount = MountFile {
-        position_m: [1.0, 0.2, -0.9],
-        yaw_deg: 1.0,
-        pitch_deg: -2.0,
-        roll_deg: 0.0,
-    };
+    let mount = MountFile::new([1.0, 0.2, -0.9], [1.0, -2.0, 0.0]);
     std::fs::write(
         dir.path().join("rig/mount.yaml"),
         serde_saphyr::to_string(&mount).unwrap(),

@@ -5,8 +5,9 @@
 //! Steps: open the session (or simulate the demo), solve both objects in every frame, run the
 //! tests on the mount deviation series, decide verdict and gate, and assemble the report.
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
+use crate::offset::frames::FrameRecord;
 use crate::session::{InputError, Policy, Session};
 use crate::sim::{self, SimError, Simulation};
 use crate::stats::StatsError;
@@ -14,11 +15,14 @@ use crate::stats::StatsError;
 mod analysis;
 mod assemble;
 mod input;
+mod mounts;
 mod outcome;
 mod solve;
 mod verdict;
 
 pub use input::{simulated, FrameInput, Setup};
+
+pub use mounts::{SegmentMount, SessionMounts};
 pub use outcome::*;
 
 /// The name of the built-in demo scenario that `audit --demo` simulates in memory.
@@ -56,10 +60,7 @@ pub enum AuditError {
 pub fn run(options: &AuditOptions, progress: &dyn Fn(u64)) -> Result<AuditOutcome, AuditError> {
     match &options.source {
         SessionSource::Manifest(path) => {
-            let session = Session::load(path)?;
-            let setup = Setup::from_session(&session, path);
-            let frames = input::JoinedFrames::new(session.detections()?, session.truth()?);
-            audit_frames(&setup, frames, &options.policy, progress)
+            audit_manifest_with_mounts(path, &options.policy, progress, None).map(|(o, _)| o)
         }
         SessionSource::Demo => {
             let scenario = sim::preset(DEMO_PRESET).ok_or_else(|| SimError::UnknownPreset {
@@ -82,7 +83,49 @@ pub fn audit_frames(
     policy: &Policy,
     progress: &dyn Fn(u64),
 ) -> Result<AuditOutcome, AuditError> {
-    let solved = solve::solve_all(setup, frames, progress)?;
+    audit_frames_with_mounts(setup, frames, policy, progress, None).map(|(outcome, _)| outcome)
+}
+
+/// Names the frames to leave out of the mount deviation series (e.g. gross pose errors), given
+/// every solved frame.
+pub type FrameScreen<'a> = &'a dyn Fn(&[FrameRecord]) -> Vec<u64>;
+
+/// [`audit_frames`], also returning each segment's mount with its effective covariance (what
+/// `survey` and `compare` build on). With a `screen`, the frames it names keep their status but
+/// leave the deviation series before the statistics run.
+pub fn audit_frames_with_mounts(
+    setup: &Setup,
+    frames: impl Iterator<Item = FrameInput>,
+    policy: &Policy,
+    progress: &dyn Fn(u64),
+    screen: Option<FrameScreen>,
+) -> Result<(AuditOutcome, SessionMounts), AuditError> {
+    let mut solved = solve::solve_all(setup, frames, progress)?;
+    let mut screened = screen.map(|s| s(&solved.records)).unwrap_or_default();
+    screened.sort_unstable();
+    screened.dedup();
+    for r in solved.records.iter_mut() {
+        if screened.binary_search(&r.frame).is_ok() {
+            r.deviation = None;
+            r.deviation_covariance = None;
+        }
+    }
     let analysis = analysis::analyse(&solved, policy.false_alarm_rate, setup.camera.pixel_sigma)?;
-    Ok(assemble::build(setup, &solved, &analysis, policy))
+    let outcome = assemble::build(setup, &solved, &analysis, policy);
+    let mut mounts = mounts::collect(&solved, &analysis, &outcome, setup.nominal.is_some());
+    mounts.screened_frames = screened;
+    Ok((outcome, mounts))
+}
+
+/// Audits the session of a manifest on disk, returning the segment mounts as well.
+pub fn audit_manifest_with_mounts(
+    manifest: &Path,
+    policy: &Policy,
+    progress: &dyn Fn(u64),
+    screen: Option<FrameScreen>,
+) -> Result<(AuditOutcome, SessionMounts), AuditError> {
+    let session = Session::load(manifest)?;
+    let setup = Setup::from_session(&session, manifest);
+    let frames = input::JoinedFrames::new(session.detections()?, session.truth()?);
+    audit_frames_with_mounts(&setup, frames, policy, progress, screen)
 }

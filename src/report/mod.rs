@@ -24,6 +24,8 @@ mod curves;
 mod decimate;
 mod format;
 mod frames_csv;
+mod gate;
+mod gate_html;
 mod html;
 mod html_sections;
 pub mod overlay;
@@ -35,6 +37,11 @@ mod terminal;
 
 pub use curves::{curve_set_svg, detection_delay_svg, detection_probability_svg, Curve, CurveSet};
 pub use frames_csv::{write_frames_csv, FRAMES_CSV_HEADER};
+pub use gate::{
+    outcome_sentence, outcome_word, survey_mount_yaml, write_compare_json, write_compare_summary,
+    write_survey_json, write_survey_summary,
+};
+pub use gate_html::{compare_files, compare_plot_svg, write_compare_html};
 pub use html::{write_audit_html, CAUTIONS};
 pub use plots::{d2_svg, deviation_svg, fit_svg, fixed_offset_svg, AuditPlots, PLOT_WIDTH};
 pub use style::{ColorEnv, TerminalStyle, Tone};

@@ -188,11 +188,34 @@ impl ModelFile {
     }
 }
 
-/// A mount file: `position_m`, `yaw_deg`, `pitch_deg`, `roll_deg`.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+/// A mount file: `position_m`, `yaw_deg`, `pitch_deg`, `roll_deg`, and, as written by
+/// `mountdrift survey`, optionally its uncertainty (`covariance`, `ci95`) and the camera it was
+/// surveyed with (`camera`). The audit reads the pose and accepts the other keys.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct MountFile {
     pub position_m: [f64; 3],
+    pub yaw_deg: f64,
+    pub pitch_deg: f64,
+    pub roll_deg: f64,
+    /// Covariance of the mount's error, 6x6 row by row, in the order x, y, z (mm, body axes),
+    /// yaw, pitch, roll (deg): the deviation of the true mount from this one in the audit's
+    /// convention (translation `p_true − p` in body axes, Z-Y-X angles of `R_BS^T R_BS,true`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub covariance: Option<[[f64; 6]; 6]>,
+    /// 95% half-widths of the same six quantities.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub ci95: Option<MountCi95File>,
+    /// The camera the mount was surveyed with, so a later comparison can tell a camera swap.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub camera: Option<CameraFile>,
+}
+
+/// 95% half-widths of a surveyed mount: position in mm (body axes), angles in degrees.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct MountCi95File {
+    pub position_mm: [f64; 3],
     pub yaw_deg: f64,
     pub pitch_deg: f64,
     pub roll_deg: f64,
@@ -212,11 +235,19 @@ impl MountFile {
 
     pub fn from_mount(m: &Mount) -> Self {
         let [yaw_deg, pitch_deg, roll_deg] = m.attitude.to_degrees();
+        Self::new(m.position_m.into(), [yaw_deg, pitch_deg, roll_deg])
+    }
+
+    /// A plain mount file (no uncertainty, no camera): position in m, yaw, pitch, roll in deg.
+    pub fn new(position_m: [f64; 3], [yaw_deg, pitch_deg, roll_deg]: [f64; 3]) -> Self {
         Self {
-            position_m: m.position_m.into(),
+            position_m,
             yaw_deg,
             pitch_deg,
             roll_deg,
+            covariance: None,
+            ci95: None,
+            camera: None,
         }
     }
 }

@@ -8,16 +8,18 @@ use std::fmt;
 use std::marker::PhantomData;
 use std::path::Path;
 
+use nalgebra::Matrix6;
 use serde::de::{self, value::MapAccessDeserializer, Deserializer, MapAccess, SeqAccess, Visitor};
 use serde::Deserialize;
 
 use super::error::{InputError, Problem};
-use super::files::{default_pixel_sigma, MountFile};
+use super::files::{default_pixel_sigma, MountCi95File, MountFile};
 use super::files::{CameraFile, CameraFileError, DistortionFile, ModelFile, ModelPointFile};
 use super::yaml::{error_at, Location, Spanned};
 use crate::camera::{Camera, CameraError};
 use crate::geometry::Mount;
 use crate::model::{KeypointModel, ModelError};
+use crate::tol;
 
 /// A manifest entry: a path (relative to the manifest) or the content inline as a mapping.
 #[derive(Debug)]
@@ -229,41 +231,107 @@ pub struct MountDoc {
     yaw_deg: Spanned<f64>,
     pitch_deg: Spanned<f64>,
     roll_deg: Spanned<f64>,
+    #[serde(default)]
+    covariance: Option<Spanned<[[f64; 6]; 6]>>,
+    #[serde(default)]
+    ci95: Option<Spanned<MountCi95File>>,
+    #[serde(default)]
+    camera: Option<Spanned<CameraDoc>>,
+}
+
+fn finite(path: &Path, key: &'static str, value: f64, at: &Location) -> Result<(), InputError> {
+    if value.is_finite() {
+        return Ok(());
+    }
+    let problem = Problem::OutOfRange {
+        key,
+        expected: "a finite number",
+        found: value,
+    };
+    Err(error_at(path, at, problem))
 }
 
 impl MountDoc {
     /// Checks that every number is finite and converts to a mount.
     pub fn into_mount(self, path: &Path) -> Result<Mount, InputError> {
-        let finite = |key: &'static str, value: f64, at: &Location| {
-            if value.is_finite() {
-                Ok(())
-            } else {
-                let problem = Problem::OutOfRange {
-                    key,
-                    expected: "a finite number",
-                    found: value,
-                };
-                Err(error_at(path, at, problem))
-            }
-        };
-        for value in self.position_m.value.0 {
-            finite("position_m", value, &self.position_m.referenced)?;
-        }
-        finite("yaw_deg", self.yaw_deg.value, &self.yaw_deg.referenced)?;
-        finite(
-            "pitch_deg",
-            self.pitch_deg.value,
-            &self.pitch_deg.referenced,
-        )?;
-        finite("roll_deg", self.roll_deg.value, &self.roll_deg.referenced)?;
-        let file = MountFile {
-            position_m: self.position_m.value.0,
-            yaw_deg: self.yaw_deg.value,
-            pitch_deg: self.pitch_deg.value,
-            roll_deg: self.roll_deg.value,
-        };
-        Ok(file.to_mount())
+        Ok(self.into_mount_file(path)?.to_mount())
     }
+
+    /// Checks every key (finite numbers, a symmetric positive semi-definite covariance,
+    /// non-negative half-widths, a valid camera) and returns the file as written.
+    pub fn into_mount_file(self, path: &Path) -> Result<MountFile, InputError> {
+        for value in self.position_m.value.0 {
+            finite(path, "position_m", value, &self.position_m.referenced)?;
+        }
+        for (key, angle) in [
+            ("yaw_deg", &self.yaw_deg),
+            ("pitch_deg", &self.pitch_deg),
+            ("roll_deg", &self.roll_deg),
+        ] {
+            finite(path, key, angle.value, &angle.referenced)?;
+        }
+        let mut file = MountFile::new(
+            self.position_m.value.0,
+            [
+                self.yaw_deg.value,
+                self.pitch_deg.value,
+                self.roll_deg.value,
+            ],
+        );
+        if let Some(c) = &self.covariance {
+            check_covariance(&c.value).map_err(|p| error_at(path, &c.referenced, p))?;
+            file.covariance = Some(c.value);
+        }
+        if let Some(h) = &self.ci95 {
+            let v = h.value;
+            let all = [v.position_mm[0], v.position_mm[1], v.position_mm[2]];
+            for x in all.into_iter().chain([v.yaw_deg, v.pitch_deg, v.roll_deg]) {
+                // An axis the survey could not observe has an infinite half-width (`.inf`).
+                if x.is_nan() || x < 0.0 {
+                    let problem = Problem::OutOfRange {
+                        key: "ci95",
+                        expected: "half-widths of 0 or more (.inf for an axis not observed)",
+                        found: x,
+                    };
+                    return Err(error_at(path, &h.referenced, problem));
+                }
+            }
+            file.ci95 = Some(v);
+        }
+        if let Some(camera) = self.camera {
+            let checked = camera.value.into_camera(path)?;
+            file.camera = Some(CameraFile::from_camera(&checked));
+        }
+        Ok(file)
+    }
+}
+
+/// A covariance as written must be finite, symmetric and positive semi-definite (each up to
+/// rounding, [`tol::COVARIANCE_ASYMMETRY_REL`] of its largest entry).
+fn check_covariance(rows: &[[f64; 6]; 6]) -> Result<(), Problem> {
+    let m = Matrix6::from_fn(|r, c| rows[r][c]);
+    if m.iter().any(|v| !v.is_finite()) {
+        return Err(Problem::expected(
+            "a 6x6 covariance of finite numbers",
+            "a value that is not finite",
+        ));
+    }
+    let limit = tol::COVARIANCE_ASYMMETRY_REL * m.amax();
+    let asymmetry = (m - m.transpose()).amax();
+    if asymmetry > limit {
+        return Err(Problem::expected(
+            "a symmetric 6x6 covariance",
+            format!("entries differing by {asymmetry:e} across the diagonal"),
+        ));
+    }
+    let smallest = m.symmetric_eigenvalues().min();
+    if smallest < -limit {
+        return Err(Problem::expected(
+            "a positive semi-definite 6x6 covariance",
+            format!("an eigenvalue of {smallest:e}"),
+        ));
+    }
+    Ok(())
 }
 
 #[cfg(test)]
@@ -353,6 +421,46 @@ mod tests {
         let [a, b] = [read.attitude, mount.attitude];
         let close = |x: f64, y: f64| (x - y).abs() < 1e-15;
         assert!(close(a.yaw, b.yaw) && close(a.pitch, b.pitch) && close(a.roll, b.roll));
+    }
+
+    #[test]
+    fn survey_keys_are_checked_and_located() {
+        let head = "position_m: [1, 0, 0]\nyaw_deg: 0\npitch_deg: 0\nroll_deg: 0\n";
+        let rows = |r1: &str| {
+            let mut text = String::from("covariance:\n");
+            for r in 0..6 {
+                let row: Vec<String> = (0..6)
+                    .map(|c| if r == c { "1".into() } else { "0".into() })
+                    .collect();
+                let row = if r == 1 {
+                    r1.to_string()
+                } else {
+                    row.join(", ")
+                };
+                text.push_str(&format!("  - [{row}]\n"));
+            }
+            text
+        };
+        let read = |text: &str| {
+            let doc: MountDoc = yaml::from_str(text, Path::new("m.yaml"))?;
+            doc.into_mount_file(Path::new("m.yaml"))
+        };
+        let ok = format!("{head}{}ci95: {{position_mm: [1, 1, 1], yaw_deg: 0.1, pitch_deg: 0.1, roll_deg: 0.1}}\n", rows("0, 1, 0, 0, 0, 0"));
+        let file = read(&ok).unwrap();
+        assert!(file.covariance.is_some() && file.ci95.is_some());
+        let asymmetric = format!("{head}{}", rows("0.5, 1, 0, 0, 0, 0"));
+        let e = read(&asymmetric).unwrap_err();
+        assert_eq!(e.line, Some(5), "{e}");
+        assert!(e.to_string().contains("symmetric"), "{e}");
+        let indefinite = format!("{head}{}", rows("0, -1, 0, 0, 0, 0"));
+        assert!(read(&indefinite)
+            .unwrap_err()
+            .to_string()
+            .contains("semi-definite"));
+        let bad_ci = format!(
+            "{head}ci95: {{position_mm: [1, -1, 1], yaw_deg: 0, pitch_deg: 0, roll_deg: 0}}\n"
+        );
+        assert_eq!(read(&bad_ci).unwrap_err().line, Some(5));
     }
 
     #[test]

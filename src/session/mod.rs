@@ -23,11 +23,19 @@ pub use csv_table::{CsvSource, CsvWriteError};
 pub use detections::{DetectionReader, DetectionWriter};
 pub use error::{Column, InputError, Problem};
 pub use files::{
-    CameraFile, CameraFileError, DistortionFile, ModelFile, ModelPointFile, MountFile,
+    CameraFile, CameraFileError, DistortionFile, ModelFile, ModelPointFile, MountCi95File,
+    MountFile,
 };
 pub use manifest::{Session, SessionSources};
 pub use policy::Policy;
 pub use truth::{TruthReader, TruthRow, TruthWriter};
+
+/// Reads a mount file (the session mount format, with the optional survey keys `covariance`,
+/// `ci95` and `camera`), every value checked and located on error.
+pub fn read_mount_file(path: &std::path::Path) -> Result<MountFile, InputError> {
+    let doc: located::MountDoc = yaml::read_file(path)?;
+    doc.into_mount_file(path)
+}
 
 /// Which rigid object a keypoint belongs to.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]

@@ -384,13 +384,8 @@ fn drogue_model(radius: f64, depth: f64, marker: f64) -> ModelFile {
     }
 }
 
-fn mount(position_m: [f64; 3], [yaw_deg, pitch_deg, roll_deg]: [f64; 3]) -> MountFile {
-    MountFile {
-        position_m,
-        yaw_deg,
-        pitch_deg,
-        roll_deg,
-    }
+fn mount(position_m: [f64; 3], angles_deg: [f64; 3]) -> MountFile {
+    MountFile::new(position_m, angles_deg)
 }
 
 /// Station-keeping at `range_m`, closing to contact, holding contact, backing off to the same

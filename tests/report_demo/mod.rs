@@ -123,12 +123,7 @@ fn inputs(session: &str, nominal: bool, truth: bool) -> InputsSummary {
             points: 8,
             reference: "throat".into(),
         },
-        nominal_mount: nominal.then_some(MountFile {
-            position_m: [1.2, 0.35, -0.4],
-            yaw_deg: 2.0,
-            pitch_deg: -4.0,
-            roll_deg: 0.0,
-        }),
+        nominal_mount: nominal.then_some(MountFile::new([1.2, 0.35, -0.4], [2.0, -4.0, 0.0])),
         policy: Policy::default(),
         has_truth: truth,
     }
