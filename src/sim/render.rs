@@ -367,7 +367,7 @@ impl FrameFolder {
 
     /// Takes a frame; renders it if its number is a multiple of `every`.
     pub fn offer(&mut self, truth: &TruthFrame) -> io::Result<()> {
-        if truth.frame % self.every == 0 {
+        if truth.frame.is_multiple_of(self.every) {
             self.pending.push(*truth);
             if self.pending.len() >= RENDER_BATCH {
                 self.flush()?;
