@@ -18,7 +18,9 @@ fn frames(c: &mut Criterion) {
     // A frame in contact (t = 100 s): both objects large in the image.
     let truth = sim.frames().find(|f| f.truth.frame >= 3000).unwrap().truth;
     let mut group = c.benchmark_group("render");
-    group.bench_function("frame_1280x960", |b| b.iter(|| black_box(renderer.render(&truth))));
+    group.bench_function("frame_1280x960", |b| {
+        b.iter(|| black_box(renderer.render(&truth)))
+    });
     group.bench_function("frame_png_1280x960", |b| {
         b.iter(|| {
             let mut bytes = Vec::with_capacity(1 << 20);

@@ -269,12 +269,27 @@ struct Inset {
 
 impl Inset {
     /// Writes the reference point's name beside its solved position, on a dark tag.
-    fn name_reference(&self, canvas: &mut RgbImage, view: &View, font: &FontRef, scale: PxScale, unit: f64) {
+    fn name_reference(
+        &self,
+        canvas: &mut RgbImage,
+        view: &View,
+        font: &FontRef,
+        scale: PxScale,
+        unit: f64,
+    ) {
         let at = view.map(self.observed);
         let (w, h) = text_size(scale, font, &self.reference_id);
         let x = at.x + RING_RADIUS * 1.6 * unit;
         let y = at.y - RING_RADIUS * 1.6 * unit - f64::from(h);
-        paint::rect(canvas, x - 3.0, y, x + f64::from(w) + 3.0, y + f64::from(h) + 3.0, PANEL, PANEL_ALPHA);
+        paint::rect(
+            canvas,
+            x - 3.0,
+            y,
+            x + f64::from(w) + 3.0,
+            y + f64::from(h) + 3.0,
+            PANEL,
+            PANEL_ALPHA,
+        );
         draw_text(canvas, font, scale, x, y, &self.reference_id);
     }
 

@@ -212,7 +212,14 @@ mod tests {
     #[test]
     fn a_tapered_segment_widens_from_one_end_to_the_other() {
         let mut img = blank();
-        tapered(&mut img, Px::new(5.0, 10.0), Px::new(30.0, 10.0), 1.0, 3.0, [255; 3]);
+        tapered(
+            &mut img,
+            Px::new(5.0, 10.0),
+            Px::new(30.0, 10.0),
+            1.0,
+            3.0,
+            [255; 3],
+        );
         // At x = 28 (t = 0.92) the half-width is 2.84: distance 2 is fully covered.
         assert_eq!(img.get_pixel(28, 12).0, [255; 3]);
         // At x = 7 (t = 0.08) the half-width is 1.16: distance 2 is not covered.
