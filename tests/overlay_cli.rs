@@ -145,20 +145,19 @@ fn a_session_without_a_frames_folder_is_refused() {
 fn simulate_renders_every_nth_frame_on_request() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("clean");
-    mountdrift()
-        .args([
-            "simulate",
-            "--preset",
-            "clean",
-            "--duration",
-            "0.2",
-            "--render-every",
-            "2",
-            "--out",
-        ])
+    let assert = mountdrift()
+        .args(["simulate", "--preset", "clean", "--duration", "0.2"])
+        .args(["--render-every", "2", "--json", "--out"])
         .arg(&out)
         .assert()
         .success();
+    let json: serde_json::Value = serde_json::from_slice(&assert.get_output().stdout).unwrap();
+    assert_eq!(json["counts"]["frames_rendered"], 3);
+    assert!(json["files"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|f| f == "frames"));
     // 25 Hz for 0.2 s: frames 0 to 4, of which 0, 2 and 4 are rendered, 1024 x 768 (fisheye).
     let mut names: Vec<String> = std::fs::read_dir(out.join("frames"))
         .unwrap()
@@ -216,6 +215,27 @@ fn render_every_zero_is_a_usage_error() {
         .arg(dir.path().join("x"))
         .assert()
         .code(2);
+}
+
+#[test]
+fn render_every_zero_in_a_scenario_file_is_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let scenario = dir.path().join("zero.yaml");
+    let text = overlay_common::SCENARIO.replace("render_every: 5", "render_every: 0");
+    std::fs::write(&scenario, text).unwrap();
+    let assert = mountdrift()
+        .arg("simulate")
+        .arg(&scenario)
+        .arg("--out")
+        .arg(dir.path().join("out"))
+        .assert()
+        .code(2);
+    let message = stderr(&assert);
+    assert!(
+        message.contains("zero.yaml") && message.contains("render_every"),
+        "{message}"
+    );
+    assert!(!dir.path().join("out").exists(), "nothing is written");
 }
 
 #[test]

@@ -310,3 +310,44 @@ fn the_same_scenario_renders_the_same_frames() {
         );
     }
 }
+
+#[test]
+fn a_probe_that_cannot_be_solved_is_reported_and_its_keypoints_still_drawn() {
+    let bench = Bench::new();
+    // Keep only 3 probe keypoints of the frame: too few for a pose.
+    let path = bench.path("detections.csv");
+    let text = std::fs::read_to_string(&path).unwrap();
+    let prefix = format!("{FRAME},");
+    let mut probe_rows = 0;
+    let kept: Vec<&str> = text
+        .lines()
+        .filter(|line| {
+            if line.starts_with(&prefix) && line.contains(",probe,") {
+                probe_rows += 1;
+                probe_rows <= 3
+            } else {
+                true
+            }
+        })
+        .collect();
+    std::fs::write(&path, kept.join("\n") + "\n").unwrap();
+    let outcome = overlay_of(&bench.manifest());
+    assert_eq!(outcome.fixed_offset, FixedOffsetLayer::ProbeNotSolved);
+    assert!(outcome.probe.rejection.is_some() && outcome.probe.model_points.is_empty());
+    assert!(outcome.drogue.rms_reprojection_px.unwrap() < 2.0);
+    let img = draw_overlay(&outcome);
+    for (id, u, v) in detected_pixels(&path, FRAME) {
+        assert_eq!(pixel(&img, u, v), DETECTION_COLOUR, "{id}");
+    }
+    let lines = overlay_text_lines(&outcome);
+    assert!(
+        lines.iter().any(|l| l.starts_with("probe  not solved:")),
+        "{lines:?}"
+    );
+    assert!(
+        lines
+            .iter()
+            .any(|l| l == "probe not solved: fixed-offset layer not drawn"),
+        "{lines:?}"
+    );
+}

@@ -134,13 +134,20 @@ impl View {
     }
 }
 
-/// Draws every mark, bottom to top: the fixed-offset probe, the detection rings, the
-/// reprojection crosses (inside the rings, so both stay visible), the detection centre dots
-/// (which no other mark hides).
+/// Draws every mark, bottom to top: the detection rings, the fixed-offset probe (hollow, so
+/// the rings show through), the reprojection crosses (inside the rings, so both stay visible),
+/// the detection centre dots (which no other mark hides).
 fn draw_layers(canvas: &mut RgbImage, outcome: &OverlayOutcome, unit: f64, view: &View) {
     let marks = |object: &ObjectOverlay| Marks {
         unit: unit * object_scale(object, unit, view.zoom),
     };
+    let objects = [&outcome.probe, &outcome.drogue];
+    for object in objects {
+        let m = marks(object);
+        for k in &object.keypoints {
+            m.detection_outline(canvas, view.map(k.detected_px), k.inlier == Some(false));
+        }
+    }
     if let FixedOffsetLayer::Shown(fixed) = &outcome.fixed_offset {
         let m = marks(&outcome.probe);
         for shift in &fixed.points {
@@ -150,13 +157,6 @@ fn draw_layers(canvas: &mut RgbImage, outcome: &OverlayOutcome, unit: f64, view:
         }
         for p in fixed.points.iter().filter_map(|s| s.fixed_offset_px) {
             m.diamond(canvas, view.map(p), FIXED_OFFSET_COLOUR);
-        }
-    }
-    let objects = [&outcome.probe, &outcome.drogue];
-    for object in objects {
-        let m = marks(object);
-        for k in &object.keypoints {
-            m.detection_outline(canvas, view.map(k.detected_px), k.inlier == Some(false));
         }
     }
     for object in objects {

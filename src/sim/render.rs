@@ -12,7 +12,7 @@ pub mod paint;
 
 use std::fs::File;
 use std::io::{self, BufWriter};
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 use image::codecs::png::PngEncoder;
 use image::{ImageEncoder, Rgb, RgbImage};
@@ -391,13 +391,9 @@ impl FrameFolder {
         Ok(())
     }
 
-    /// Frames written so far.
-    pub fn rendered(&self) -> u64 {
-        self.rendered
-    }
-
-    /// Writes what is pending and moves the folder to `out_dir/frames`; returns that path.
-    pub fn commit(mut self, out_dir: &Path) -> io::Result<PathBuf> {
+    /// Writes what is pending and moves the folder to `out_dir/frames`; returns the number of
+    /// frames rendered.
+    pub fn commit(mut self, out_dir: &Path) -> io::Result<u64> {
         self.flush()?;
         let target = out_dir.join(FRAMES_DIR);
         let staged = self.dir.keep();
@@ -414,7 +410,7 @@ impl FrameFolder {
         } else {
             std::fs::rename(&staged, &target)?;
         }
-        Ok(target)
+        Ok(self.rendered)
     }
 }
 

@@ -79,6 +79,7 @@ pub fn write_session(
     out_dir: &Path,
     poses: bool,
 ) -> Result<SessionCounts, SimError> {
+    let render_every = checked_render_every(scenario)?;
     std::fs::create_dir_all(out_dir).map_err(|source| SimError::Write {
         path: out_dir.to_path_buf(),
         source,
@@ -105,15 +106,20 @@ pub fn write_session(
         "nominal mount",
     )?;
     staged.text(SCENARIO_FILE, &scenario.to_yaml()?)?;
-    let mut frames = frame_folder(sim, scenario, out_dir)?;
+    let mut frames = render_every
+        .map(|every| FrameFolder::create(sim, every, out_dir))
+        .transpose()
+        .map_err(|source| SimError::Write {
+            path: out_dir.join(FRAMES_DIR),
+            source,
+        })?;
     let mut counts = staged.streams(sim, poses, frames.as_mut())?;
     staged.text(
         SESSION_FILE,
         &manifest_text(scenario, sim, frames.is_some())?,
     )?;
     if let Some(folder) = frames {
-        counts.frames_rendered = folder.rendered();
-        folder.commit(out_dir).map_err(|source| SimError::Write {
+        counts.frames_rendered = folder.commit(out_dir).map_err(|source| SimError::Write {
             path: out_dir.join(FRAMES_DIR),
             source,
         })?;
@@ -122,28 +128,16 @@ pub fn write_session(
     Ok(counts)
 }
 
-/// The folder frame images are rendered into, when the scenario asks for them.
-fn frame_folder(
-    sim: &Simulation,
-    scenario: &Scenario,
-    out_dir: &Path,
-) -> Result<Option<FrameFolder>, SimError> {
-    let Some(every) = scenario.render_every else {
-        return Ok(None);
-    };
-    if every == 0 {
+/// The scenario's `render_every`, refused when 0 (before anything is written).
+fn checked_render_every(scenario: &Scenario) -> Result<Option<u64>, SimError> {
+    if scenario.render_every == Some(0) {
         return Err(SimError::Invalid {
             origin: scenario.origin.clone(),
             field: "render_every".into(),
             reason: "expected a whole number of frames, at least 1, found 0".into(),
         });
     }
-    FrameFolder::create(sim, every, out_dir)
-        .map(Some)
-        .map_err(|source| SimError::Write {
-            path: out_dir.join(FRAMES_DIR),
-            source,
-        })
+    Ok(scenario.render_every)
 }
 
 fn manifest_text(scenario: &Scenario, sim: &Simulation, frames: bool) -> Result<String, SimError> {

@@ -258,6 +258,9 @@ impl<'a> Panel<'a> {
 /// pipeline puts it.
 struct Inset {
     centre: Px,
+    /// The reference point as solved, and its name.
+    observed: Px,
+    reference_id: String,
     /// Side (px) and magnification (a whole number, 2 to 8).
     size: f64,
     zoom: f64,
@@ -265,6 +268,31 @@ struct Inset {
 }
 
 impl Inset {
+    /// Writes the reference point's name beside its solved position, on a dark tag.
+    fn name_reference(
+        &self,
+        canvas: &mut RgbImage,
+        view: &View,
+        font: &FontRef,
+        scale: PxScale,
+        unit: f64,
+    ) {
+        let at = view.map(self.observed);
+        let (w, h) = text_size(scale, font, &self.reference_id);
+        let x = at.x + RING_RADIUS * 1.6 * unit;
+        let y = at.y - RING_RADIUS * 1.6 * unit - f64::from(h);
+        paint::rect(
+            canvas,
+            x - 3.0,
+            y,
+            x + f64::from(w) + 3.0,
+            y + f64::from(h) + 3.0,
+            PANEL,
+            PANEL_ALPHA,
+        );
+        draw_text(canvas, font, scale, x, y, &self.reference_id);
+    }
+
     /// The inset of the reference point's displacement, when both ends are known.
     fn of(outcome: &OverlayOutcome, unit: f64) -> Option<Self> {
         let FixedOffsetLayer::Shown(fixed) = &outcome.fixed_offset else {
@@ -277,9 +305,11 @@ impl Inset {
         let zoom = (INSET_SPAN * size / span).round().clamp(MIN_ZOOM, MAX_ZOOM);
         Some(Self {
             centre: (a + b) * 0.5,
+            observed: a,
             size,
             zoom,
-            label: format!("x{zoom:.0} at {}", fixed.reference_id),
+            label: format!("x{zoom:.0} around {}", fixed.reference_id),
+            reference_id: fixed.reference_id.clone(),
         })
     }
 
@@ -314,6 +344,7 @@ impl Inset {
         });
         draw_layers(&mut canvas, outcome, unit, &view);
         let scale = text_scale(unit);
+        self.name_reference(&mut canvas, &view, font, scale, unit);
         let strip = f64::from(scale.y) * 1.5;
         paint::rect(&mut canvas, 0.0, 0.0, self.size, strip, PANEL, PANEL_ALPHA);
         draw_text(

@@ -140,7 +140,9 @@ mod tests {
         let mut img = blank();
         disc(&mut img, Px::new(10.0, 12.0), 3.0, [255, 255, 255]);
         assert_eq!(img.get_pixel(10, 12).0, [255; 3]);
-        assert_eq!(img.get_pixel(13, 12).0, [255; 3]);
+        assert_eq!(img.get_pixel(12, 12).0, [255; 3]);
+        // On the edge (distance 3) the coverage is 3 + 0.5 − 3 = 0.5: half of 255, rounded.
+        assert_eq!(img.get_pixel(13, 12).0, [128; 3]);
         // At distance 4 the coverage 3 + 0.5 − 4 is negative.
         assert_eq!(img.get_pixel(14, 12).0, [0; 3]);
         assert_eq!(img.get_pixel(10, 16).0, [0; 3]);
@@ -189,9 +191,12 @@ mod tests {
         for x in 5..=30 {
             assert_eq!(img.get_pixel(x, 10).0, [255; 3]);
         }
-        // Distance 1.5 from the line: coverage 0 (1 + 0.5 − 1.5); distance 1: full.
-        assert_eq!(img.get_pixel(15, 11).0, [255; 3]);
+        // Distance 1 from the line (on the edge): coverage 0.5; distance 2: none.
+        assert_eq!(img.get_pixel(15, 11).0, [128; 3]);
         assert_eq!(img.get_pixel(15, 12).0, [0; 3]);
+        // Beyond the ends the round caps continue: (4, 10) is at distance 1 from (5, 10).
+        assert_eq!(img.get_pixel(4, 10).0, [128; 3]);
+        assert_eq!(img.get_pixel(3, 10).0, [0; 3]);
         let mut half = blank();
         capsule(
             &mut half,
@@ -202,6 +207,23 @@ mod tests {
         );
         // Pixel centres at 0.5 from the centre line: coverage 0.5 → half of 200.
         assert_eq!(half.get_pixel(15, 10).0, [100; 3]);
+    }
+
+    #[test]
+    fn a_tapered_segment_widens_from_one_end_to_the_other() {
+        let mut img = blank();
+        tapered(
+            &mut img,
+            Px::new(5.0, 10.0),
+            Px::new(30.0, 10.0),
+            1.0,
+            3.0,
+            [255; 3],
+        );
+        // At x = 28 (t = 0.92) the half-width is 2.84: distance 2 is fully covered.
+        assert_eq!(img.get_pixel(28, 12).0, [255; 3]);
+        // At x = 7 (t = 0.08) the half-width is 1.16: distance 2 is not covered.
+        assert_eq!(img.get_pixel(7, 12).0, [0; 3]);
     }
 
     #[test]
