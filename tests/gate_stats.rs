@@ -9,7 +9,9 @@ use mountdrift::commands::compare::{
     compare_sides, decide, AxisEquivalence, AxisResult, ChangeOutcome, Side, SideKind, SideSummary,
 };
 use mountdrift::commands::survey::GateWarningCode;
-use mountdrift::session::{CameraFile, DistortionFile, MountFile, Policy};
+use mountdrift::session::{
+    read_mount_file, yaml, CameraFile, DistortionFile, MountCi95File, MountFile, Policy,
+};
 use nalgebra::{Matrix6, Vector6};
 
 /// z_{0.95} = 1.644854, CHECK_VALUES.md section 1 (scipy.stats.norm.ppf, [COMP]); the standard
@@ -208,4 +210,28 @@ fn pure_translation_between_hand_made_surveys() {
     let unknown = survey_side([1.003, 0.3, -0.9], 1.0, 0.02, None);
     let outcome = compare_sides(&before, &unknown, &wide).unwrap();
     assert_eq!(outcome.warnings[0].code, GateWarningCode::CameraUnknown);
+}
+
+#[test]
+fn an_unobserved_axis_survives_the_file_round_trip() {
+    // A survey whose keypoints miss roll writes a zero covariance row and an infinite
+    // half-width (`.inf`); the file must read back as it was written.
+    let mut file = MountFile::new([1.0, 0.3, -0.9], [2.0, -3.0, 0.5]);
+    file.covariance = Some(std::array::from_fn(|r| {
+        std::array::from_fn(|c| if r == c && r < 5 { 0.01 } else { 0.0 })
+    }));
+    file.ci95 = Some(MountCi95File {
+        position_mm: [0.2, 0.2, 0.2],
+        yaw_deg: 0.2,
+        pitch_deg: 0.2,
+        roll_deg: f64::INFINITY,
+    });
+    // The camera as the reader normalises it (explicit zero tangential terms).
+    let checked = camera(880.0).to_camera().unwrap();
+    file.camera = Some(CameraFile::from_camera(&checked));
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("survey.yaml");
+    std::fs::write(&path, yaml::to_string(&file).unwrap()).unwrap();
+    let read = read_mount_file(&path).unwrap();
+    assert_eq!(read, file);
 }
