@@ -49,10 +49,17 @@ pub struct CompareOptions {
 pub enum CompareError {
     #[error(transparent)]
     Input(#[from] InputError),
+    /// Boxed: a survey error carries a whole audit error.
     #[error(transparent)]
-    Survey(#[from] SurveyError),
+    Survey(Box<SurveyError>),
     #[error("the statistics could not be computed: {0}")]
     Statistics(#[from] StatsError),
+}
+
+impl From<SurveyError> for CompareError {
+    fn from(e: SurveyError) -> Self {
+        CompareError::Survey(Box::new(e))
+    }
 }
 
 /// The answer of the gate.

@@ -64,11 +64,6 @@ pub enum SurveyError {
         solved: u64,
         needed: u64,
     },
-    #[error(
-        "{session}: the surveyed mount is pitched 90 degrees from the audit's reference mount, \
-         where yaw/pitch/roll are singular: check the nominal mount of the session"
-    )]
-    SingularAttitude { session: String },
 }
 
 /// Which frames the survey used, and why.
@@ -203,9 +198,7 @@ pub fn survey_from_audit(
             needed: 2 * crate::stats::drift::DriftOptions::default().min_segment_samples as u64,
         });
     };
-    let covariance = about_mount(segment).ok_or_else(|| SurveyError::SingularAttitude {
-        session: session.clone(),
-    })?;
+    let covariance = about_mount(segment);
     let half_widths = half_widths(&covariance, &segment.observable);
     let mut mount = MountFile::from_mount(&segment.mount);
     mount.covariance = Some(std::array::from_fn(|r| {
@@ -241,14 +234,14 @@ pub fn survey_from_audit(
 }
 
 /// The segment's covariance re-expressed about its own mount (see [`propagation`]).
-fn about_mount(segment: &SegmentMount) -> Option<Matrix6<f64>> {
+fn about_mount(segment: &SegmentMount) -> Matrix6<f64> {
     let angles = Vector3::new(
         segment.deviation[3],
         segment.deviation[4],
         segment.deviation[5],
     );
-    let jacobian = propagation::reexpress_jacobian(&angles)?;
-    Some(propagation::transform(&jacobian, &segment.covariance))
+    let jacobian = propagation::reexpress_jacobian(&angles);
+    propagation::transform(&jacobian, &segment.covariance)
 }
 
 /// `z_{0.975} √C_jj` per axis; infinite for an axis the segment does not observe.

@@ -145,7 +145,7 @@ pub fn write_survey_summary(
     ));
     let u = &outcome.used;
     out.push_str(&format!(
-        "  frames {} to {} (t = {}-{} s, {} solved of {} in the session): {}\n",
+        "  frames {} to {} (t = {}-{} s, {} frames used of {} in the session): {}\n",
         u.first_frame,
         u.last_frame,
         fixed(u.first_time_s, 2),

@@ -450,7 +450,7 @@ mod tests {
         assert!(file.covariance.is_some() && file.ci95.is_some());
         let asymmetric = format!("{head}{}", rows("0.5, 1, 0, 0, 0, 0"));
         let e = read(&asymmetric).unwrap_err();
-        assert_eq!(e.line, Some(5), "{e}");
+        assert_eq!(e.line, Some(6), "{e}");
         assert!(e.to_string().contains("symmetric"), "{e}");
         let indefinite = format!("{head}{}", rows("0, -1, 0, 0, 0, 0"));
         assert!(read(&indefinite)

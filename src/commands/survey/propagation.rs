@@ -22,19 +22,35 @@ fn block_diagonal(translation: Matrix3<f64>, rotation: Matrix3<f64>) -> Matrix6<
     m
 }
 
+/// The Z-Y-X Euler-rate matrix `E`: a change `δ` of (yaw, pitch, roll) at `angles` is the right
+/// rotation `R(angles) exp([E δ]x)` to first order, with `w_x = δroll − sin(pitch) δyaw`,
+/// `w_y = cos(roll) δpitch + sin(roll) cos(pitch) δyaw`,
+/// `w_z = cos(roll) cos(pitch) δyaw − sin(roll) δpitch` (the inverse of
+/// [`YawPitchRoll::rate_jacobian`] where that exists; `E` itself exists everywhere).
+pub fn euler_rate_matrix(angles: &YawPitchRoll) -> Matrix3<f64> {
+    let (sr, cr) = angles.roll.sin_cos();
+    let (sp, cp) = angles.pitch.sin_cos();
+    Matrix3::new(
+        -sp,
+        0.0,
+        1.0, // w_x
+        sr * cp,
+        cr,
+        0.0, // w_y
+        cr * cp,
+        -sr,
+        0.0, // w_z
+    )
+}
+
 /// Jacobian from deviations about a reference to deviations about `reference ⊕ d`, at `d`
 /// (angles in degrees). Translations add in body axes (identity); for the rotation,
-/// `R(d + δ) = R(d) exp([K(d)⁻¹ δ]x)` with `K` the Z-Y-X rate Jacobian
-/// ([`YawPitchRoll::rate_jacobian`]), so the angles about the mount are `P K(d)⁻¹ δ`.
-/// `None` when `d` has a pitch of ±90° (the Z-Y-X angles are singular there).
-pub fn reexpress_jacobian(deviation_angles_deg: &Vector3<f64>) -> Option<Matrix6<f64>> {
+/// `R(d + δ) = R(d) exp([E(d) δ]x)` ([`euler_rate_matrix`]), so the angles about the mount are
+/// `P E(d) δ`.
+pub fn reexpress_jacobian(deviation_angles_deg: &Vector3<f64>) -> Matrix6<f64> {
     let [yaw, pitch, roll] = [0, 1, 2].map(|k| deviation_angles_deg[k].to_radians());
-    let k = YawPitchRoll::new(yaw, pitch, roll).rate_jacobian();
-    let inverse = k.try_inverse()?;
-    inverse
-        .iter()
-        .all(|v| v.is_finite())
-        .then(|| block_diagonal(Matrix3::identity(), axis_reversal() * inverse))
+    let e = euler_rate_matrix(&YawPitchRoll::new(yaw, pitch, roll));
+    block_diagonal(Matrix3::identity(), axis_reversal() * e)
 }
 
 /// `J C Jᵀ`, symmetrised against rounding.
@@ -99,7 +115,7 @@ mod tests {
         let reference = mount([1.1, 0.3, -0.9], [2.0, -3.5, 0.4]);
         let d = Vector6::new(4.0, -2.0, 3.0, 1.5, -2.2, 0.9);
         let at = about(&reference, &d);
-        let j = reexpress_jacobian(&Vector3::new(d[3], d[4], d[5])).unwrap();
+        let j = reexpress_jacobian(&Vector3::new(d[3], d[4], d[5]));
         let before = mount([1.0, 0.2, -0.8], [-7.0, 4.0, 2.0]);
         let after = mount([1.004, 0.197, -0.805], [-6.2, 3.1, 2.6]);
         let (change, a_b, a_a) = change_between(&before, &after);
@@ -130,8 +146,13 @@ mod tests {
 
     #[test]
     fn small_deviations_keep_the_covariance() {
-        let j = reexpress_jacobian(&Vector3::zeros()).unwrap();
+        let j = reexpress_jacobian(&Vector3::zeros());
         assert!((j - Matrix6::identity()).norm() < 1e-15);
-        assert!(reexpress_jacobian(&Vector3::new(0.0, 90.0, 0.0)).is_none());
+        // E is the inverse of the rate Jacobian away from pitch ±90°, and finite at it.
+        let angles = YawPitchRoll::new(0.4, -0.7, 1.1);
+        let product = angles.rate_jacobian() * euler_rate_matrix(&angles);
+        assert!((product - Matrix3::identity()).norm() < 1e-12);
+        let j = reexpress_jacobian(&Vector3::new(10.0, 90.0, -5.0));
+        assert!(j.iter().all(|v| v.is_finite()));
     }
 }
