@@ -301,7 +301,10 @@ pub(super) fn data_quality(outcome: &AuditOutcome, plot: &str) -> String {
         ("probe ill-conditioned", f.probe_ill_conditioned.to_string()),
         ("drogue ambiguous", f.drogue_ambiguous.to_string()),
         ("outlier keypoints dropped", f.outlier_keypoints.to_string()),
-        ("gross-error frames set aside", f.gross_error_frames.to_string()),
+        (
+            "gross-error frames set aside",
+            f.gross_error_frames.to_string(),
+        ),
         ("pixel sigma", sigma_text(outcome)),
     ]));
     if !f.rejected_by_reason.is_empty() {
