@@ -3,7 +3,9 @@
 
 use mountdrift::stats::changepoint::pelt;
 use mountdrift::stats::cost::L2Cost;
-use mountdrift::stats::noise::{ar1_long_run_ratio, estimate_effective_noise, NoiseScales};
+use mountdrift::stats::noise::{
+    ar1_long_run_ratio, ar1_matching_long_run, estimate_effective_noise, NoiseScales,
+};
 use mountdrift::stats::penalty::{
     ar1_series, critical_penalty, null_lag1, stream_seed, CalibrationSettings, PenaltyCalibrator,
 };
@@ -148,4 +150,36 @@ fn penalty_grows_with_the_null_correlation() {
     // p-value of the calibrated penalty itself is about the rate.
     let p = white.p_value(white.penalty);
     assert!(p > 0.02 && p < 0.1, "p-value at the penalty {p}");
+}
+
+/// White noise plus slowly correlated noise (the structure of per-keypoint white plus AR(1)
+/// detection errors): 73.5% of the variance white, 26.5% AR(1) with ρ = 0.8. Its lag-1
+/// coefficient is only 0.265 · 0.8 = 0.21, but its long-run variance is
+/// 0.735 + 0.265 · (1+0.8)/(1−0.8) = 3.12 times the marginal one (the AR(1) long-run variance,
+/// Box & Jenkins, *Time Series Analysis*, ch. 3), which AR(1) noise with ρ = 2.12/4.12 = 0.51
+/// shares: the null coefficient follows the long-run ratio, not lag 1. For white noise both stay
+/// near 0.
+#[test]
+fn null_coefficient_follows_the_long_run_ratio_of_a_mixture() {
+    let scales = NoiseScales::for_min_size(10);
+    let n = 40_000;
+    let mut rng = Pcg64Mcg::seed_from_u64(11);
+    let slow = ar1_series(&mut rng, n, 6, 0.8);
+    let white = ar1_series(&mut rng, n, 6, 0.0);
+    let z: Vec<Vector6<f64>> = slow
+        .iter()
+        .zip(&white)
+        .map(|(s, w)| s * 0.265f64.sqrt() + w * 0.735f64.sqrt())
+        .collect();
+    let mixture = estimate_effective_noise(&z, 6, &[(0, n)], &scales);
+    assert!((mixture.lag1 - 0.21).abs() < 0.04, "lag1 {}", mixture.lag1);
+    let expected = (3.12 - 1.0) / (3.12 + 1.0);
+    for rho in [mixture.scale_lag1, mixture.scale_lag1_robust] {
+        assert!((rho - expected).abs() < 0.05, "scale lag1 {rho}");
+    }
+    assert!((mixture.null_lag1(false) - mixture.scale_lag1).abs() < 1e-12);
+    let white = estimate_effective_noise(&white, 6, &[(0, n)], &scales);
+    assert!(white.scale_lag1 < 0.1, "white {}", white.scale_lag1);
+    assert_eq!(ar1_matching_long_run(0.8), 0.0);
+    assert!((ar1_matching_long_run(3.0) - 0.5).abs() < 1e-15);
 }

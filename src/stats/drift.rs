@@ -195,11 +195,7 @@ pub fn analyse_drift(
             options.false_alarm_rate,
             // Before any segment is known an undetected shift would inflate the residual
             // autocorrelation (and with it the penalty), so the first round uses the robust one.
-            if rounds == 1 {
-                noise.lag1_robust
-            } else {
-                noise.lag1
-            },
+            noise.null_lag1(rounds == 1),
         )?;
         model.inflate(&noise.inflation);
         let next = pelt(&model.cost()?, penalty.penalty, m)?;
@@ -211,8 +207,10 @@ pub fn analyse_drift(
         }
     };
     let mut warnings = Vec::new();
-    if null_lag1(noise.lag1).1 {
-        warnings.push(DriftWarning::NoiseTooCorrelated { lag1: noise.lag1 });
+    if null_lag1(noise.null_lag1(false)).1 {
+        warnings.push(DriftWarning::NoiseTooCorrelated {
+            lag1: noise.null_lag1(false),
+        });
     }
     if !converged {
         warnings.push(DriftWarning::NotConverged { rounds });

@@ -103,6 +103,13 @@ pub struct EffectiveNoise {
     /// A shift-robust version from the semivariogram (see `lag1_per_direction`), noisier; used
     /// before any segment is known.
     pub lag1_robust: f64,
+    /// The AR(1) coefficient with the data's ratio of the studentiser to the marginal variance,
+    /// pooled over the directions (`ar1_matching_long_run` of `Σκ_j / Σ var_j`, variances of the
+    /// residuals about the segment means). White noise plus slowly correlated noise has a small
+    /// lag-1 coefficient but a large ratio; the penalty's null takes the larger of the two.
+    pub scale_lag1: f64,
+    /// The same against the far robust semivariogram as the marginal variance (shift-robust).
+    pub scale_lag1_robust: f64,
 }
 
 impl EffectiveNoise {
@@ -120,6 +127,19 @@ impl EffectiveNoise {
             windows: 0,
             lag1: 0.0,
             lag1_robust: 0.0,
+            scale_lag1: 0.0,
+            scale_lag1_robust: 0.0,
+        }
+    }
+
+    /// The AR(1) coefficient of the clean series the penalty is calibrated on: the larger of the
+    /// lag-1 coefficient and the one matching the ratio of long-run to marginal variance (the
+    /// shift-robust versions when `robust`, before any segment is known).
+    pub fn null_lag1(&self, robust: bool) -> f64 {
+        if robust {
+            self.lag1_robust.max(self.scale_lag1_robust)
+        } else {
+            self.lag1.max(self.scale_lag1)
         }
     }
 
@@ -227,8 +247,27 @@ pub fn estimate_effective_noise(
         .map(|k| (k * scales.min_scale).min(z.len() / 4).max(2))
         .collect();
     let robust = lag1_per_direction(z, segments, &directions, &factors, &far_lags);
-    let (lag1, pairs) = residual_lag1(z, segments, &directions, &factors);
+    let (lag1, pairs, variance) = residual_lag1(z, segments, &directions, &factors);
     let corrected = |rho: f64| (rho + (1.0 + 3.0 * rho.max(0.0)) / pairs.max(1) as f64).min(1.0);
+    // The AR(1) coefficient with the data's ratio of the studentiser `κ_j` (the largest scaled
+    // Allan variance) to the marginal variance: against the residual variance (precise) and
+    // against the far semivariogram (shift-robust).
+    let far_variance = far_semivariogram(z, segments, &directions, &factors, &far_lags);
+    // Pooled over the directions (the trace): the eigenvalues of a noisy estimate spread about
+    // the truth, so their largest ratio would call white noise correlated; correlation confined
+    // to one direction is still caught by the lag-1 coefficient.
+    let at_scale = |marginal: &Vector6<f64>| {
+        let active = (0..6).filter(|&j| factors[j] > 0.0 && marginal[j] > 0.0);
+        let (studentiser, variance) =
+            active.fold((0.0, 0.0), |(k, v), j| (k + factors[j], v + marginal[j]));
+        if variance > 0.0 {
+            ar1_matching_long_run(studentiser / variance)
+        } else {
+            0.0
+        }
+    };
+    let scale_lag1 = at_scale(&variance);
+    let scale_lag1_robust = at_scale(&far_variance);
     let long_run = Vector6::from_fn(|j, _| {
         if factors[j] <= 0.0 {
             return 0.0;
@@ -250,21 +289,26 @@ pub fn estimate_effective_noise(
         windows: estimates[0].2,
         lag1: corrected(lag1.max()),
         lag1_robust: corrected(robust.max()),
+        scale_lag1,
+        scale_lag1_robust,
     }
 }
 
 /// Lag-1 autocorrelation of each active principal direction of the residuals about each
-/// segment's mean (pairs inside segments), and the number of pairs.
+/// segment's mean (pairs inside segments), the number of pairs, and the residual variance of
+/// each direction.
 fn residual_lag1(
     z: &[Vector6<f64>],
     segments: &[(usize, usize)],
     directions: &Matrix6<f64>,
     factors: &Vector6<f64>,
-) -> (Vector6<f64>, usize) {
+) -> (Vector6<f64>, usize, Vector6<f64>) {
     let mut lag0 = Vector6::<f64>::zeros();
     let mut lag1 = Vector6::<f64>::zeros();
     let mut pairs = 0;
+    let mut count = 0;
     for &(start, end) in segments.iter().filter(|(a, b)| b - a >= 2) {
+        count += end - start;
         let mean = z[start..end].iter().sum::<Vector6<f64>>() / (end - start) as f64;
         let residual = |t: usize| directions.transpose() * (z[t] - mean);
         let mut previous = residual(start);
@@ -284,7 +328,7 @@ fn residual_lag1(
             0.0
         }
     });
-    (rho, pairs)
+    (rho, pairs, lag0 / count.max(1) as f64)
 }
 
 /// The long-run variance of direction `u` extrapolated from the large scales: the mean over the
@@ -304,10 +348,9 @@ fn long_run_extrapolation(
     upper.iter().sum::<f64>() / upper.len() as f64
 }
 
-/// `G(∞)/G(τ)` for AR(1) noise with coefficient ρ: how much of the long-run variance
-/// `(1+ρ)/(1−ρ)` the scaled Allan variance at scale τ still misses. From the autocovariance
-/// `ρ^|k|`: `G(τ) = (τ/2)(2 Var(mean_τ) − 2 Cov(adjacent means))`.
-pub fn ar1_long_run_ratio(rho: f64, tau: usize) -> f64 {
+/// `G(τ)` of AR(1) noise with coefficient ρ and unit marginal variance (white noise: 1), from
+/// the autocovariance `ρ^|k|`: `G(τ) = (τ/2)(2 Var(mean_τ) − 2 Cov(adjacent means))`.
+pub fn ar1_scaled_allan(rho: f64, tau: usize) -> f64 {
     if rho <= 0.0 || tau == 0 {
         return 1.0;
     }
@@ -319,7 +362,31 @@ pub fn ar1_long_run_ratio(rho: f64, tau: usize) -> f64 {
     let cov_adjacent: f64 = (1..2 * tau)
         .map(|k| k.min(2 * tau - k) as f64 * rho.powi(k as i32))
         .sum();
-    let allan = (t / 2.0) * 2.0 * (var_mean - cov_adjacent) / (t * t);
+    (t / 2.0) * 2.0 * (var_mean - cov_adjacent) / (t * t)
+}
+
+/// The AR(1) coefficient with the same long-run over marginal variance ratio `λ`:
+/// `(1+ρ)/(1−ρ) = λ`, i.e. `ρ = (λ−1)/(λ+1)` (zero for `λ ≤ 1`: white or anti-persistent).
+/// A mixture of white noise and slowly correlated noise (white plus correlated detection errors)
+/// has a small lag-1 autocorrelation but a long-run variance several times its marginal one;
+/// its studentised scan behaves like AR(1) noise with this coefficient, not like the one matched
+/// at lag 1.
+pub fn ar1_matching_long_run(ratio: f64) -> f64 {
+    if ratio > 1.0 {
+        (ratio - 1.0) / (ratio + 1.0)
+    } else {
+        0.0
+    }
+}
+
+/// `G(∞)/G(τ)` for AR(1) noise with coefficient ρ: how much of the long-run variance
+/// `(1+ρ)/(1−ρ)` the scaled Allan variance at scale τ still misses. From the autocovariance
+/// `ρ^|k|`: `G(τ) = (τ/2)(2 Var(mean_τ) − 2 Cov(adjacent means))`.
+pub fn ar1_long_run_ratio(rho: f64, tau: usize) -> f64 {
+    if rho <= 0.0 || tau == 0 {
+        return 1.0;
+    }
+    let allan = ar1_scaled_allan(rho, tau);
     let long_run = (1.0 + rho) / (1.0 - rho).max(f64::EPSILON);
     (long_run / allan).max(1.0)
 }
@@ -343,6 +410,28 @@ fn robust_semivariogram(u: &[f64], segments: &[(usize, usize)], lag: usize) -> O
     let mid = squares.len() / 2;
     let (_, median, _) = squares.select_nth_unstable_by(mid, f64::total_cmp);
     Some(*median / (2.0 * CHI2_1_MEDIAN))
+}
+
+/// The marginal variance of each active direction from the robust semivariogram at the far
+/// lags (`D̄` of `lag1_per_direction`; untouched by a few pairs across an unknown shift).
+fn far_semivariogram(
+    z: &[Vector6<f64>],
+    segments: &[(usize, usize)],
+    directions: &Matrix6<f64>,
+    factors: &Vector6<f64>,
+    far_lags: &[usize],
+) -> Vector6<f64> {
+    Vector6::from_fn(|j, _| {
+        if factors[j] <= 0.0 {
+            return 0.0;
+        }
+        let u: Vec<f64> = z.iter().map(|v| directions.column(j).dot(v)).collect();
+        let far: Option<Vec<f64>> = far_lags
+            .iter()
+            .map(|&lag| robust_semivariogram(&u, segments, lag))
+            .collect();
+        far.map_or(0.0, |d| d.iter().sum::<f64>() / d.len() as f64)
+    })
 }
 
 /// Lag-1 autocorrelation of each active principal direction from the robust semivariogram,
