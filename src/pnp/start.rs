@@ -1,6 +1,6 @@
 //! Global starts that need no prior: IPPE for (near-)planar point sets, EPnP for (near-)non-planar
-//! ones, ranked by their gated reprojection cost; and, when outliers are suspected, the same
-//! starts computed from subsets that leave them out.
+//! ones, ranked by their gated reprojection cost; their mirrors (depth-reversed poses); and, when
+//! outliers are suspected, the same starts computed from subsets that leave them out.
 
 use rand::seq::index;
 use rand::SeedableRng;
