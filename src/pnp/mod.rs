@@ -285,7 +285,8 @@ impl Rejection {
 /// Solves the pose `T_CO` of `model` from its keypoints `obs` (each naming its model point) to the
 /// maximum-likelihood optimum of the sigma-weighted pixel reprojection error, with covariance,
 /// chi-square fit, inliers and ambiguity. `warm_start` (the previous frame's pose) is used when it
-/// converges to a good fit, else the global start (EPnP or IPPE) is used.
+/// converges to a good fit of every keypoint; a warm fit that gates keypoints out competes with
+/// the global search; otherwise the global start (EPnP or IPPE) is used.
 pub fn solve_pose(
     camera: &Camera,
     model: &KeypointModel,
