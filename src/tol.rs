@@ -93,8 +93,9 @@ pub const LM_MAX_DAMPING: f64 = 1e12;
 pub const LM_DIAGONAL_FLOOR: f64 = 1e-12;
 
 /// At most this many starts computed from all points are refined per frame (IPPE gives two, EPnP
-/// its best hypothesis); refinement stops at the first that fits every point.
-pub const PNP_MAX_STARTS: usize = 3;
+/// its best hypothesis, each with its mirror), best first; refinement stops at the first that
+/// fits every point.
+pub const PNP_MAX_STARTS: usize = 4;
 
 /// Observed model points whose RMS thickness off their best-fit plane is below this fraction of
 /// their RMS length are treated as exactly planar (IPPE start only; EPnP's third control point

@@ -338,3 +338,26 @@ proptest! {
         prop_assert!(e.dot(&(est.information * e)) < 1e-6, "{e} inliers {:?}", est.inliers);
     }
 }
+
+#[test]
+fn wild_keypoint_cases_found_by_the_property_test() {
+    // Minimal failing inputs the property test above once found (the solver rejected these good
+    // frames): a keypoint 7e11 px away wrecked the algebraic start, and with a second bad
+    // keypoint the Huber optimum was pulled too far for the gate.
+    let cases: [&[(usize, [f64; 2])]; 2] = [
+        &[(5, [0.0, 675648291391.0696])],
+        &[(4, [0.0, 0.0]), (2, [-802867540390.5039, 0.0])],
+    ];
+    for wild in cases {
+        let (cam, model, mut obs) = setup();
+        for (i, px) in wild {
+            obs[*i].px = Vector2::from(*px);
+        }
+        let est = solved(solve_pose(&cam, &model, &obs, None, &PnpOptions::default()));
+        for (i, _) in wild {
+            assert!(!est.inliers[*i]);
+        }
+        let e = tangent(&est.pose, &truth());
+        assert!(e.dot(&(est.information * e)) < 1e-6);
+    }
+}

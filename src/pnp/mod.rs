@@ -285,7 +285,8 @@ impl Rejection {
 /// Solves the pose `T_CO` of `model` from its keypoints `obs` (each naming its model point) to the
 /// maximum-likelihood optimum of the sigma-weighted pixel reprojection error, with covariance,
 /// chi-square fit, inliers and ambiguity. `warm_start` (the previous frame's pose) is used when it
-/// converges to a good fit, else the global start (EPnP or IPPE) is used.
+/// converges to a good fit of every keypoint; a warm fit that gates keypoints out competes with
+/// the global search; otherwise the global start (EPnP or IPPE) is used.
 pub fn solve_pose(
     camera: &Camera,
     model: &KeypointModel,
@@ -386,62 +387,101 @@ fn try_warm(
 }
 
 /// Tries the global starts in order of their initial cost (after the refined warm pose, if any)
-/// and keeps the best refined solution; stops early once a start converges with every point an
-/// inlier, and searches subsets when none does.
+/// and keeps the best refined solution; stops at the first that converges with every point an
+/// inlier. If none does, the mirrors of the starts are tried, then starts from subsets.
 fn global_solution(
     problem: &refine::Problem,
     geometry: &PointGeometry,
     warm_pose: Option<Pose>,
 ) -> Result<Solution, Rejection> {
-    let starts = start::global_starts(problem, geometry);
-    let mut any_start = !starts.is_empty() || warm_pose.is_some();
-    let mut best: Option<Solution> =
-        warm_pose.and_then(|p| refine::robust_solve(problem, p, PoseStart::Warm));
-    let mut any_in_front = best.is_some();
     let n = problem.pts.len();
-    for (pose, kind) in starts.into_iter().take(tol::PNP_MAX_STARTS) {
-        any_in_front |= refine::all_in_front(problem, &pose);
-        if let Some(s) = refine::robust_solve(problem, pose, kind) {
-            let clean = s.converged && s.inlier_count() == n;
-            keep_better(&mut best, s);
-            if clean {
-                break;
-            }
+    let mut search = Search {
+        best: warm_pose.and_then(|p| refine::robust_solve(problem, p, PoseStart::Warm)),
+        any_start: warm_pose.is_some(),
+        any_in_front: false,
+    };
+    search.any_in_front = search.best.is_some();
+    let starts = start::global_starts(problem, geometry);
+    for &(pose, kind) in starts.iter().take(tol::PNP_MAX_STARTS) {
+        if search.try_start(problem, pose, kind, n) {
+            return search.finish();
+        }
+    }
+    for (pose, kind) in start::mirror_starts(problem, geometry, &starts) {
+        if search.try_start(problem, pose, kind, n) {
+            return search.finish();
         }
     }
     // Outliers can drag every start computed from all points into a wrong basin: retry from
     // starts computed on subsets that leave them out.
-    if best.as_ref().is_none_or(|b| b.inlier_count() < n) {
-        for (pose, kind) in start::subset_starts(problem) {
-            any_start = true;
-            any_in_front |= refine::all_in_front(problem, &pose);
-            if let Some(s) = refine::robust_solve(problem, pose, kind) {
-                keep_better(&mut best, s);
+    for (pose, kind) in start::subset_starts(problem) {
+        search.any_start = true;
+        search.any_in_front |= refine::all_in_front(problem, &pose);
+        if let Some(s) = refine::robust_solve_with_outliers(problem, pose, kind, 0) {
+            // A subset start that lands on the same inliers and cost confirms the best.
+            let confirms = search.best.as_ref().is_some_and(|b| {
+                b.inliers == s.inliers
+                    && (b.gated_cost - s.gated_cost).abs() <= 1e-9 * (1.0 + b.gated_cost)
+            });
+            keep_better(&mut search.best, s);
+            if confirms {
+                break;
             }
         }
     }
-    match best {
-        None if !any_start => Err(Rejection::new(
-            RejectionReason::DegenerateGeometry,
-            "no start pose could be computed: the observed model points are in a degenerate \
-             configuration (for 4 coplanar points, three of them are collinear)",
-        )),
-        Some(s) if s.converged => Ok(s),
-        Some(s) => Err(Rejection::new(
-            RejectionReason::NotConverged,
-            format!(
-                "the pose refinement did not converge within {} iterations",
-                s.iterations
-            ),
-        )),
-        None if !any_in_front => Err(Rejection::new(
-            RejectionReason::BehindCamera,
-            "no start pose puts the observed model points in front of the camera",
-        )),
-        None => Err(Rejection::new(
-            RejectionReason::TooManyOutliers,
-            "no start led to a pose that fits at least 4 keypoints",
-        )),
+    search.finish()
+}
+
+/// State of the global search: the best solution so far and what the starts showed.
+struct Search {
+    best: Option<Solution>,
+    any_start: bool,
+    any_in_front: bool,
+}
+
+impl Search {
+    /// Refines one start; true once the best solution converged with every point an inlier.
+    fn try_start(
+        &mut self,
+        problem: &refine::Problem,
+        pose: Pose,
+        kind: PoseStart,
+        n: usize,
+    ) -> bool {
+        self.any_start = true;
+        self.any_in_front |= refine::all_in_front(problem, &pose);
+        if let Some(s) = refine::robust_solve(problem, pose, kind) {
+            keep_better(&mut self.best, s);
+        }
+        self.best
+            .as_ref()
+            .is_some_and(|s| s.converged && s.inlier_count() == n)
+    }
+
+    fn finish(self) -> Result<Solution, Rejection> {
+        match self.best {
+            None if !self.any_start => Err(Rejection::new(
+                RejectionReason::DegenerateGeometry,
+                "no start pose could be computed: the observed model points are in a degenerate \
+                 configuration (for 4 coplanar points, three of them are collinear)",
+            )),
+            Some(s) if s.converged => Ok(s),
+            Some(s) => Err(Rejection::new(
+                RejectionReason::NotConverged,
+                format!(
+                    "the pose refinement did not converge within {} iterations",
+                    s.iterations
+                ),
+            )),
+            None if !self.any_in_front => Err(Rejection::new(
+                RejectionReason::BehindCamera,
+                "no start pose puts the observed model points in front of the camera",
+            )),
+            None => Err(Rejection::new(
+                RejectionReason::TooManyOutliers,
+                "no start led to a pose that fits at least 4 keypoints",
+            )),
+        }
     }
 }
 

@@ -318,7 +318,6 @@ pub(crate) fn robust_solve(problem: &Problem, start: Pose, kind: PoseStart) -> O
     let n = problem.pts.len();
     let all = vec![true; n];
     let first = levenberg_marquardt(problem, &all, Loss::Squared, start, tol::LM_STEP_CHI2)?;
-    let mut iterations = first.iterations;
     if first.normal.max_sq <= problem.gate.threshold {
         // Every point passes: the gated cost is the chi-square itself.
         return Some(Solution {
@@ -327,10 +326,22 @@ pub(crate) fn robust_solve(problem: &Problem, start: Pose, kind: PoseStart) -> O
             gated_cost: first.normal.cost,
             inliers: all,
             converged: first.converged,
-            iterations,
+            iterations: first.iterations,
             start: kind,
         });
     }
+    robust_solve_with_outliers(problem, start, kind, first.iterations)
+}
+
+/// The outlier part of `robust_solve`, for a start already known to face outliers (the
+/// least-squares stage over all points is skipped).
+pub(crate) fn robust_solve_with_outliers(
+    problem: &Problem,
+    start: Pose,
+    kind: PoseStart,
+    mut iterations: usize,
+) -> Option<Solution> {
+    let all = vec![true; problem.pts.len()];
     let huber = Loss::Huber(problem.gate.huber_sigma);
     // From the start, not from the least-squares pose, which the outliers have pulled.
     // Only a basin is wanted here: a loose tolerance, and no need to have converged.

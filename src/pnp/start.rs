@@ -1,6 +1,6 @@
 //! Global starts that need no prior: IPPE for (near-)planar point sets, EPnP for (near-)non-planar
-//! ones, ranked by their gated reprojection cost; and, when outliers are suspected, the same
-//! starts computed from subsets that leave them out.
+//! ones, ranked by their gated reprojection cost; their mirrors (depth-reversed poses); and, when
+//! outliers are suspected, the same starts computed from subsets that leave them out.
 
 use rand::seq::index;
 use rand::SeedableRng;
@@ -9,7 +9,7 @@ use rand_pcg::Pcg64Mcg;
 use super::pose::Pose;
 use super::prepare::{Correspondence, PointGeometry};
 use super::refine::{gated_cost, Problem};
-use super::{epnp, planar, PoseStart};
+use super::{ambiguity, epnp, planar, PoseStart};
 use crate::tol;
 
 /// Starts from all points, best first by gated cost (unscored when there is only one). Keypoints
@@ -29,6 +29,20 @@ pub(crate) fn global_starts(problem: &Problem, geometry: &PointGeometry) -> Vec<
         return starts;
     }
     ranked(problem, starts)
+}
+
+/// The mirrors of the given starts, best first: the depth-reversed (Necker) pose is the classic
+/// wrong basin of a start under weak perspective.
+pub(crate) fn mirror_starts(
+    problem: &Problem,
+    geometry: &PointGeometry,
+    starts: &[(Pose, PoseStart)],
+) -> Vec<(Pose, PoseStart)> {
+    let mirrors = starts
+        .iter()
+        .filter_map(|(p, _)| ambiguity::mirror(p, geometry).map(|m| (m, PoseStart::Mirror)))
+        .collect();
+    ranked(problem, mirrors)
 }
 
 /// Whether a keypoint could be a detection at all: within one image size of the image. A pixel
@@ -51,11 +65,11 @@ fn plausible_points<'a>(problem: &'a Problem) -> impl Iterator<Item = Correspond
 }
 
 /// Planar and near-planar sets get both IPPE solutions; non-planar and near-planar sets the
-/// EPnP solution.
+/// EPnP solution (its closed-form N = 1 solution if it reprojects within `epnp_accept`).
 fn starts_for(
     pts: &[Correspondence],
     geometry: &PointGeometry,
-    noise_floor: f64,
+    epnp_accept: f64,
 ) -> Vec<(Pose, PoseStart)> {
     let mut starts = Vec::with_capacity(3);
     let planarity = geometry.planarity();
@@ -65,7 +79,7 @@ fn starts_for(
         }
     }
     if planarity >= tol::PNP_PLANAR_REL {
-        for p in epnp::epnp_starts(pts, geometry, noise_floor) {
+        for p in epnp::epnp_starts(pts, geometry, epnp_accept) {
             starts.push((p, PoseStart::Epnp));
         }
     }
@@ -91,7 +105,8 @@ pub(crate) fn subset_starts(problem: &Problem) -> Vec<(Pose, PoseStart)> {
     if n < 5 {
         return Vec::new();
     }
-    let noise_floor = problem.noise_floor();
+    // Subsets only need rough starts: EPnP's closed form, without its hypothesis search.
+    let noise_floor = f64::INFINITY;
     let mut subset: Vec<Correspondence> = Vec::with_capacity(n);
     let mut starts = Vec::with_capacity(2 * n + 2 * tol::PNP_RANDOM_SUBSETS);
     let mut add = |keep: &mut dyn Iterator<Item = usize>, subset: &mut Vec<Correspondence>| {
