@@ -2,4 +2,5 @@
 
 pub mod audit;
 pub mod camera;
+pub mod sensitivity;
 pub mod simulate;

@@ -9,6 +9,7 @@ use std::path::PathBuf;
 
 use crate::session::{InputError, Policy, Session};
 use crate::sim::{self, SimError, Simulation};
+use crate::stats::penalty::{CalibrationSettings, PenaltyCalibrator};
 use crate::stats::StatsError;
 
 mod analysis;
@@ -18,7 +19,7 @@ mod outcome;
 mod solve;
 mod verdict;
 
-pub use input::{FrameInput, Setup};
+pub use input::{simulated, FrameInput, Setup};
 pub use outcome::*;
 
 /// The name of the built-in demo scenario that `audit --demo` simulates in memory.
@@ -82,7 +83,26 @@ pub fn audit_frames(
     policy: &Policy,
     progress: &dyn Fn(u64),
 ) -> Result<AuditOutcome, AuditError> {
+    let calibrator = PenaltyCalibrator::new(CalibrationSettings::default());
+    audit_frames_with(setup, frames, policy, &calibrator, progress)
+}
+
+/// [`audit_frames`] with a penalty calibrator the caller keeps, so that many sessions of the
+/// same length and noise class (a sensitivity study) share one simulated null distribution
+/// instead of simulating it for every session.
+pub fn audit_frames_with(
+    setup: &Setup,
+    frames: impl Iterator<Item = FrameInput>,
+    policy: &Policy,
+    calibrator: &PenaltyCalibrator,
+    progress: &dyn Fn(u64),
+) -> Result<AuditOutcome, AuditError> {
     let solved = solve::solve_all(setup, frames, progress)?;
-    let analysis = analysis::analyse(&solved, policy.false_alarm_rate, setup.camera.pixel_sigma)?;
+    let analysis = analysis::analyse(
+        &solved,
+        policy.false_alarm_rate,
+        setup.camera.pixel_sigma,
+        calibrator,
+    )?;
     Ok(assemble::build(setup, &solved, &analysis, policy))
 }

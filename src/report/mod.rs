@@ -28,6 +28,7 @@ mod html;
 mod html_sections;
 mod plots;
 mod scale;
+pub mod sensitivity;
 mod style;
 mod svg;
 mod terminal;

@@ -13,7 +13,7 @@ use crate::stats::drift::{
     analyse_drift, DeviationSample, DeviationSeries, DriftAnalysis, DriftOptions,
 };
 use crate::stats::information::Information;
-use crate::stats::penalty::{CalibrationSettings, PenaltyCalibrator};
+use crate::stats::penalty::PenaltyCalibrator;
 use crate::stats::StatsError;
 
 use super::solve::Solved;
@@ -49,6 +49,7 @@ pub fn analyse(
     solved: &Solved,
     false_alarm_rate: f64,
     assumed_sigma_px: f64,
+    calibrator: &PenaltyCalibrator,
 ) -> Result<Analysis, StatsError> {
     let (sample_records, samples) = deviation_samples(solved);
     let frame_tests = samples
@@ -64,7 +65,7 @@ pub fn analyse(
     } else {
         Vec::new()
     };
-    let drift = run_drift(&samples, false_alarm_rate)?;
+    let drift = run_drift(&samples, false_alarm_rate, calibrator)?;
     let sample_segment = segment_of_samples(drift.as_ref(), samples.len());
     let segment_mounts = drift
         .as_ref()
@@ -111,6 +112,7 @@ fn deviation_samples(solved: &Solved) -> (Vec<usize>, Vec<DeviationSample>) {
 fn run_drift(
     samples: &[DeviationSample],
     false_alarm_rate: f64,
+    calibrator: &PenaltyCalibrator,
 ) -> Result<Option<DriftAnalysis>, StatsError> {
     let options = DriftOptions {
         false_alarm_rate,
@@ -121,8 +123,7 @@ fn run_drift(
         return Ok(None);
     }
     let series = DeviationSeries::new(samples)?;
-    let calibrator = PenaltyCalibrator::new(CalibrationSettings::default());
-    analyse_drift(&series, &options, &calibrator).map(Some)
+    analyse_drift(&series, &options, calibrator).map(Some)
 }
 
 fn segment_of_samples(drift: Option<&DriftAnalysis>, n: usize) -> Vec<usize> {
