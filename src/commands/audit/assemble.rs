@@ -290,12 +290,8 @@ fn segments(
 
 /// Record indices spanned by a segment (first to last frame).
 fn segment_records(solved: &Solved, s: &SegmentEstimate) -> std::ops::Range<usize> {
-    let start = solved
-        .records
-        .partition_point(|r| r.frame < s.first_frame as u64);
-    let end = solved
-        .records
-        .partition_point(|r| r.frame <= s.last_frame as u64);
+    let start = solved.records.partition_point(|r| r.frame < s.first_frame as u64);
+    let end = solved.records.partition_point(|r| r.frame <= s.last_frame as u64);
     start..end.max(start + 1)
 }
 
