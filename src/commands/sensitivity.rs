@@ -184,17 +184,26 @@ pub fn run(
         .flat_map(|c| (0..options.trials).map(move |t| (c, t)))
         .collect();
     let done = AtomicU64::new(0);
-    let results = jobs
-        .par_iter()
-        .map(|&(cell, trial)| {
-            let injection = cells[cell];
-            let seed = trial_seed(study.base_seed, trial, injection);
-            let scenario = trial::trial_scenario(&study.clean, &study.window, seed, injection);
-            let result = trial::run_trial(&scenario, &study.window, &options.policy, &calibrator);
-            progress(done.fetch_add(1, Ordering::Relaxed) + 1);
-            result
-        })
-        .collect::<Result<Vec<TrialResult>, AuditError>>()?;
+    let run_job = |&(cell, trial): &(usize, u64)| {
+        let injection = cells[cell];
+        let seed = trial_seed(study.base_seed, trial, injection);
+        let scenario = trial::trial_scenario(&study.clean, &study.window, seed, injection);
+        let result = trial::run_trial(&scenario, &study.window, &options.policy, &calibrator);
+        progress(done.fetch_add(1, Ordering::Relaxed) + 1);
+        result
+    };
+    // The first session runs alone: it fills the calibration cache (itself parallel) that the
+    // others will mostly share, instead of every thread simulating the same null at once.
+    let (first, rest) = jobs.split_first().ok_or(SensitivityError::Invalid {
+        field: "trials".into(),
+        reason: "must be at least 1".into(),
+    })?;
+    let mut results = vec![run_job(first)?];
+    results.extend(
+        rest.par_iter()
+            .map(run_job)
+            .collect::<Result<Vec<TrialResult>, AuditError>>()?,
+    );
     let per_cell: Vec<&[TrialResult]> = results.chunks(options.trials as usize).collect();
     Ok(summarise(options, &study, &cells, &per_cell))
 }
