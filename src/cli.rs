@@ -21,6 +21,13 @@ use mountdrift::commands::overlay::{self, OverlayError, OverlayOptions};
 use mountdrift::commands::simulate::{self, ScenarioSource, SimulateOptions};
 use mountdrift::commands::survey::{self, SurveyError, SurveyOptions};
 use mountdrift::report::overlay::{overlay_text_lines, write_overlay_png};
+use mountdrift::commands::sensitivity::{
+    self, Axis, IntervalMethod, SensitivityError, SensitivityOptions,
+};
+use mountdrift::commands::simulate::{self, ScenarioSource, SimulateOptions};
+use mountdrift::report::sensitivity::{
+    write_sensitivity_json, write_sensitivity_summary, SensitivityFile,
+};
 use mountdrift::sim::SimError;
 
 use crate::output::{self, OutputError, StagedOutputs};
@@ -49,6 +56,9 @@ pub enum Command {
     /// Maintenance gate: compare the mount of AFTER with BEFORE (sessions or survey files)
     /// against the policy tolerances. Exit 0 unchanged, 1 changed or inconclusive, 2 bad input.
     Compare(CompareArgs),
+    /// Size the audit's change-point test on a scenario: false-alarm rate, detection probability
+    /// and delay of steps along each axis, and the smallest step detected with 95% probability.
+    Sensitivity(SensitivityArgs),
     /// Camera intrinsics helpers.
     #[command(subcommand)]
     Camera(CameraCommand),
@@ -125,15 +135,124 @@ pub struct SimulateArgs {
     pub json: bool,
 }
 
+fn scenario_source(path: &Option<PathBuf>, preset: &Option<String>) -> ScenarioSource {
+    match (path, preset) {
+        (Some(path), _) => ScenarioSource::Path(path.clone()),
+        (None, Some(name)) => ScenarioSource::Preset(name.clone()),
+        (None, None) => unreachable!("clap requires a scenario or a preset"),
+    }
+}
+
+#[derive(Debug, Args)]
+#[command(group(clap::ArgGroup::new("source").required(true).args(["scenario", "preset"])))]
+pub struct SensitivityArgs {
+    /// The scenario (YAML; see docs/scenarios.md). Its own mount events are left out.
+    pub scenario: Option<PathBuf>,
+    /// A built-in scenario instead: demo, clean, creep, loose or wrong-nominal.
+    #[arg(long, value_name = "NAME")]
+    pub preset: Option<String>,
+    /// Sessions simulated per cell (clean sessions, and each axis and step size).
+    #[arg(long, value_name = "N", default_value_t = 100)]
+    pub trials: u64,
+    /// Replace the scenario's duration, seconds (shorter sessions size a study quickly).
+    #[arg(long, value_name = "SECONDS")]
+    pub duration: Option<f64>,
+    /// Replace the scenario's seed as the base of every session's seed.
+    #[arg(long)]
+    pub seed: Option<u64>,
+    /// Step sizes of one unit, increasing, e.g. `--sizes mm=0.5,1,2 --sizes deg=0.02,0.05`
+    /// (default mm=0.25,0.5,1,2,4 and deg=0.01,0.02,0.05,0.1,0.2).
+    #[arg(long, value_name = "UNIT=LIST", value_parser = parse_sizes)]
+    pub sizes: Vec<(SizeUnit, Vec<f64>)>,
+    /// Axes to step along, comma-separated (default all: x,y,z,yaw,pitch,roll).
+    #[arg(long, value_name = "LIST", value_delimiter = ',', value_parser = parse_axis)]
+    pub axes: Vec<Axis>,
+    /// Confidence interval of the rates.
+    #[arg(long, value_enum, default_value_t = IntervalArg::ClopperPearson)]
+    pub interval: IntervalArg,
+    /// Policy file (YAML) whose false_alarm_rate sets the audit's penalty.
+    #[arg(long, value_name = "FILE")]
+    pub policy: Option<PathBuf>,
+    /// Write sensitivity.json, sensitivity.csv and the plots into this folder.
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// Print the outcome as JSON on standard output instead of the table.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// The unit of a `--sizes` list.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SizeUnit {
+    Mm,
+    Deg,
+}
+
+fn parse_sizes(text: &str) -> Result<(SizeUnit, Vec<f64>), String> {
+    let (unit, list) = text
+        .split_once('=')
+        .ok_or_else(|| format!("expected UNIT=LIST such as mm=0.5,1,2 (got '{text}')"))?;
+    let unit = match unit.trim() {
+        "mm" => SizeUnit::Mm,
+        "deg" => SizeUnit::Deg,
+        other => return Err(format!("unit '{other}' is neither mm nor deg")),
+    };
+    let sizes = list
+        .split(',')
+        .map(|v| {
+            v.trim()
+                .parse::<f64>()
+                .map_err(|_| format!("'{}' is not a number", v.trim()))
+        })
+        .collect::<Result<Vec<f64>, String>>()?;
+    Ok((unit, sizes))
+}
+
+fn parse_axis(text: &str) -> Result<Axis, String> {
+    Axis::from_name(text)
+        .ok_or_else(|| format!("'{text}' is not an axis (x, y, z, yaw, pitch or roll)"))
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum IntervalArg {
+    /// Exact, conservative (Clopper & Pearson 1934).
+    ClopperPearson,
+    /// Score interval (Wilson 1927).
+    Wilson,
+}
+
+impl TryFrom<&SensitivityArgs> for SensitivityOptions {
+    type Error = InputError;
+
+    fn try_from(args: &SensitivityArgs) -> Result<Self, InputError> {
+        let mut options = SensitivityOptions::new(scenario_source(&args.scenario, &args.preset));
+        options.trials = args.trials;
+        options.duration_s = args.duration;
+        options.seed = args.seed;
+        if !args.axes.is_empty() {
+            options.axes = args.axes.clone();
+        }
+        for (unit, sizes) in &args.sizes {
+            match unit {
+                SizeUnit::Mm => options.translation_sizes_mm = sizes.clone(),
+                SizeUnit::Deg => options.rotation_sizes_deg = sizes.clone(),
+            }
+        }
+        options.interval = match args.interval {
+            IntervalArg::ClopperPearson => IntervalMethod::ClopperPearson,
+            IntervalArg::Wilson => IntervalMethod::Wilson,
+        };
+        if let Some(path) = &args.policy {
+            options.policy = Policy::load(path)?;
+        }
+        Ok(options)
+    }
+}
+
 impl From<&SimulateArgs> for SimulateOptions {
     fn from(args: &SimulateArgs) -> Self {
-        let scenario = match (&args.scenario, &args.preset) {
-            (Some(path), _) => ScenarioSource::Path(path.clone()),
-            (None, Some(name)) => ScenarioSource::Preset(name.clone()),
-            (None, None) => unreachable!("clap requires a scenario or a preset"),
-        };
         SimulateOptions {
-            scenario,
+            scenario: scenario_source(&args.scenario, &args.preset),
             out_dir: args.out.clone(),
             seed: args.seed,
             duration_s: args.duration,
@@ -277,6 +396,7 @@ pub enum CliError {
     Survey(#[from] SurveyError),
     #[error(transparent)]
     Compare(#[from] CompareError),
+    Sensitivity(#[from] SensitivityError),
     #[error("cannot render the output: {0}")]
     Render(String),
     #[error("cannot write to standard output: {0}")]
@@ -290,6 +410,7 @@ pub fn run(cli: Cli) -> Result<ExitCode, CliError> {
         Command::Simulate(args) => run_simulate(&args),
         Command::Survey(args) => run_survey(&args),
         Command::Compare(args) => run_compare(&args),
+        Command::Sensitivity(args) => run_sensitivity(&args),
         Command::Camera(CameraCommand::FromExif(args)) => run_from_exif(&args),
         Command::Overlay(args) => run_overlay(&args),
         Command::Completions(args) => run_completions(&args),
@@ -344,6 +465,29 @@ fn run_simulate(args: &SimulateArgs) -> Result<ExitCode, CliError> {
             outcome.seed,
             outcome.session.display()
         )
+    };
+    finish_stdout(printed)
+}
+
+fn run_sensitivity(args: &SensitivityArgs) -> Result<ExitCode, CliError> {
+    let options = SensitivityOptions::try_from(args)?;
+    options.validate()?;
+    let bar = progress::CountProgress::new(!args.json, options.session_count(), "sessions");
+    let outcome = sensitivity::run(&options, &|n| bar.update(n));
+    bar.finish();
+    let outcome = outcome?;
+    if let Some(dir) = &args.out {
+        let mut outputs = StagedOutputs::create(dir)?;
+        for file in SensitivityFile::for_outcome(&outcome) {
+            outputs.add(file.name(), |w| file.write(&outcome, w))?;
+        }
+        outputs.commit()?;
+    }
+    let mut stdout = io::stdout().lock();
+    let printed = if args.json {
+        write_sensitivity_json(&mut stdout, &outcome)
+    } else {
+        write_sensitivity_summary(&mut stdout, &outcome, TerminalStyle::detect())
     };
     finish_stdout(printed)
 }

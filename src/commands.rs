@@ -4,5 +4,6 @@ pub mod audit;
 pub mod camera;
 pub mod compare;
 pub mod overlay;
+pub mod sensitivity;
 pub mod simulate;
 pub mod survey;

@@ -1,4 +1,4 @@
-//! Progress on long runs: a counter on standard error, drawn only when standard error is a
+//! Progress on long runs: a counter or a bar on standard error, drawn only when standard error is a
 //! terminal and the run prints a human summary (never in pipes or with `--json`).
 
 use std::io::IsTerminal;
@@ -29,6 +29,45 @@ impl FrameProgress {
     pub fn update(&self, frames: u64) {
         if let Some(bar) = &self.bar {
             bar.set_position(frames);
+        }
+    }
+
+    pub fn finish(&self) {
+        if let Some(bar) = &self.bar {
+            bar.finish_and_clear();
+        }
+    }
+}
+
+/// Progress through a known number of items (e.g. simulated sessions), as a bar with a count and
+/// an estimate of the time left.
+pub struct CountProgress {
+    bar: Option<ProgressBar>,
+}
+
+impl CountProgress {
+    /// `wanted` is false for machine-readable output; `what` names the items (`sessions`).
+    pub fn new(wanted: bool, total: u64, what: &str) -> Self {
+        let bar = (wanted && std::io::stderr().is_terminal()).then(|| {
+            let bar = ProgressBar::new(total);
+            let template = format!("{{bar:40}} {{pos}}/{{len}} {what} {{elapsed}} (eta {{eta}})");
+            bar.set_style(
+                ProgressStyle::with_template(&template)
+                    .unwrap_or_else(|_| ProgressStyle::default_bar()),
+            );
+            bar.enable_steady_tick(Duration::from_millis(250));
+            bar
+        });
+        Self { bar }
+    }
+
+    /// `done` items are finished; safe to call from several threads.
+    pub fn update(&self, done: u64) {
+        if let Some(bar) = &self.bar {
+            // Threads report out of order; the bar only moves forward.
+            if done > bar.position() {
+                bar.set_position(done);
+            }
         }
     }
 

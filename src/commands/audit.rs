@@ -10,6 +10,7 @@ use std::path::{Path, PathBuf};
 use crate::offset::frames::FrameRecord;
 use crate::session::{InputError, Policy, Session};
 use crate::sim::{self, SimError, Simulation};
+use crate::stats::drift::Calibrators;
 use crate::stats::StatsError;
 
 mod analysis;
@@ -83,7 +84,20 @@ pub fn audit_frames(
     policy: &Policy,
     progress: &dyn Fn(u64),
 ) -> Result<AuditOutcome, AuditError> {
-    audit_frames_with_mounts(setup, frames, policy, progress, None).map(|(outcome, _)| outcome)
+    audit_frames_with(setup, frames, policy, analysis::shared_calibrators(), progress)
+}
+
+/// [`audit_frames`] with penalty and online-threshold calibrators the caller chooses (lighter
+/// simulations for tests, or a study's own). [`audit_frames`] uses one set shared by the whole
+/// process.
+pub fn audit_frames_with(
+    setup: &Setup,
+    frames: impl Iterator<Item = FrameInput>,
+    policy: &Policy,
+    calibrators: &Calibrators,
+    progress: &dyn Fn(u64),
+) -> Result<AuditOutcome, AuditError> {
+    audit_inner(setup, frames, policy, progress, None, calibrators).map(|(outcome, _)| outcome)
 }
 
 /// Names the frames to leave out of the mount deviation series (e.g. gross pose errors), given
@@ -100,6 +114,18 @@ pub fn audit_frames_with_mounts(
     progress: &dyn Fn(u64),
     screen: Option<FrameScreen>,
 ) -> Result<(AuditOutcome, SessionMounts), AuditError> {
+    let calibrators = analysis::shared_calibrators();
+    audit_inner(setup, frames, policy, progress, screen, calibrators)
+}
+
+fn audit_inner(
+    setup: &Setup,
+    frames: impl Iterator<Item = FrameInput>,
+    policy: &Policy,
+    progress: &dyn Fn(u64),
+    screen: Option<FrameScreen>,
+    calibrators: &Calibrators,
+) -> Result<(AuditOutcome, SessionMounts), AuditError> {
     let mut solved = solve::solve_all(setup, frames, progress)?;
     let mut screened = screen.map(|s| s(&solved.records)).unwrap_or_default();
     screened.sort_unstable();
@@ -110,7 +136,12 @@ pub fn audit_frames_with_mounts(
             r.deviation_covariance = None;
         }
     }
-    let analysis = analysis::analyse(&solved, policy.false_alarm_rate, setup.camera.pixel_sigma)?;
+    let analysis = analysis::analyse(
+        &solved,
+        policy.false_alarm_rate,
+        setup.camera.pixel_sigma,
+        calibrators,
+    )?;
     let outcome = assemble::build(setup, &solved, &analysis, policy);
     let mut mounts = mounts::collect(&solved, &analysis, &outcome, setup.nominal.is_some());
     mounts.screened_frames = screened;

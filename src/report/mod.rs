@@ -31,6 +31,7 @@ mod html_sections;
 pub mod overlay;
 mod plots;
 mod scale;
+pub mod sensitivity;
 mod style;
 mod svg;
 mod terminal;

@@ -56,7 +56,7 @@ pub struct Analysis {
 /// The simulated null distributions (penalty, online threshold), shared by every audit in the
 /// process: they depend only on the series' length, dimension and correlation class, so repeated
 /// audits (sensitivity studies, tests) draw them once. Seeded, so sharing changes no result.
-fn calibrators() -> &'static Calibrators {
+pub fn shared_calibrators() -> &'static Calibrators {
     static SHARED: std::sync::OnceLock<Calibrators> = std::sync::OnceLock::new();
     SHARED.get_or_init(Calibrators::default)
 }
@@ -66,6 +66,7 @@ pub fn analyse(
     solved: &Solved,
     false_alarm_rate: f64,
     assumed_sigma_px: f64,
+    calibrators: &Calibrators,
 ) -> Result<Analysis, StatsError> {
     let (records, samples) = deviation_samples(solved);
     let information = samples
@@ -96,7 +97,7 @@ pub fn analyse(
     } else {
         Vec::new()
     };
-    let drift = run_drift(&samples, false_alarm_rate)?;
+    let drift = run_drift(&samples, false_alarm_rate, calibrators)?;
     let sample_segment = segment_of_samples(drift.as_ref(), samples.len());
     let segment_mounts = drift
         .as_ref()
@@ -144,6 +145,7 @@ fn deviation_samples(solved: &Solved) -> (Vec<usize>, Vec<DeviationSample>) {
 fn run_drift(
     samples: &[DeviationSample],
     false_alarm_rate: f64,
+    calibrators: &Calibrators,
 ) -> Result<Option<DriftAnalysis>, StatsError> {
     let options = DriftOptions {
         false_alarm_rate,
@@ -154,7 +156,7 @@ fn run_drift(
         return Ok(None);
     }
     let series = DeviationSeries::new(samples)?;
-    analyse_drift(&series, &options, calibrators()).map(Some)
+    analyse_drift(&series, &options, calibrators).map(Some)
 }
 
 fn segment_of_samples(drift: Option<&DriftAnalysis>, n: usize) -> Vec<usize> {
