@@ -18,13 +18,12 @@ use mountdrift::session::{InputError, Policy};
 use mountdrift::commands::camera::{self, FromExifError, FromExifOptions};
 use mountdrift::commands::compare::{self, CompareError, CompareOptions};
 use mountdrift::commands::overlay::{self, OverlayError, OverlayOptions};
-use mountdrift::commands::simulate::{self, ScenarioSource, SimulateOptions};
-use mountdrift::commands::survey::{self, SurveyError, SurveyOptions};
-use mountdrift::report::overlay::{overlay_text_lines, write_overlay_png};
 use mountdrift::commands::sensitivity::{
     self, Axis, IntervalMethod, SensitivityError, SensitivityOptions,
 };
 use mountdrift::commands::simulate::{self, ScenarioSource, SimulateOptions};
+use mountdrift::commands::survey::{self, SurveyError, SurveyOptions};
+use mountdrift::report::overlay::{overlay_text_lines, write_overlay_png};
 use mountdrift::report::sensitivity::{
     write_sensitivity_json, write_sensitivity_summary, SensitivityFile,
 };
@@ -396,6 +395,7 @@ pub enum CliError {
     Survey(#[from] SurveyError),
     #[error(transparent)]
     Compare(#[from] CompareError),
+    #[error(transparent)]
     Sensitivity(#[from] SensitivityError),
     #[error("cannot render the output: {0}")]
     Render(String),

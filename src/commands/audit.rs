@@ -84,7 +84,13 @@ pub fn audit_frames(
     policy: &Policy,
     progress: &dyn Fn(u64),
 ) -> Result<AuditOutcome, AuditError> {
-    audit_frames_with(setup, frames, policy, analysis::shared_calibrators(), progress)
+    audit_frames_with(
+        setup,
+        frames,
+        policy,
+        analysis::shared_calibrators(),
+        progress,
+    )
 }
 
 /// [`audit_frames`] with penalty and online-threshold calibrators the caller chooses (lighter
