@@ -2,16 +2,15 @@
 //! rank-aware Wald chi-square, the outcome rule, and a comparison of two survey files built by
 //! hand (cameras, covariance propagation of a pure translation).
 
-use mountdrift::commands::compare::equivalence::{
-    observed_axes, observed_projector, two_one_sided, wald_no_change,
-};
 use mountdrift::commands::compare::{
-    compare_sides, decide, AxisEquivalence, AxisResult, ChangeOutcome, Side, SideKind, SideSummary,
+    compare_sides, decide, observed_axes, AxisEquivalence, AxisResult, ChangeOutcome, Side,
+    SideKind, SideSummary,
 };
 use mountdrift::commands::survey::GateWarningCode;
 use mountdrift::session::{
     read_mount_file, yaml, CameraFile, DistortionFile, MountCi95File, MountFile, Policy,
 };
+use mountdrift::stats::multivariate::{observed_projector, tost, wald_on_observed};
 use nalgebra::{Matrix6, Vector6};
 
 /// z_{0.95} = 1.644854, CHECK_VALUES.md section 1 (scipy.stats.norm.ppf, [COMP]); the standard
@@ -26,7 +25,7 @@ fn tost_not_equivalent_hand_worked() {
     // beyond +2.0, so not equivalent.
     // One-sided p-values: H0 θ ≤ −2: z = (1.2 + 2)/0.5 = 6.4, p ≈ 8e-11;
     // H0 θ ≥ 2: z = (2 − 1.2)/0.5 = 1.6, p = 1 − Φ(1.6) = 1 − 0.94520 = 0.05480 > 0.05.
-    let t = two_one_sided(1.2, 0.5, 2.0, 0.05).unwrap();
+    let t = tost(1.2, 0.5, 2.0, 0.05, None).unwrap();
     assert!((t.interval.0 - (1.2 - Z95 * 0.5)).abs() < 1e-6, "{t:?}");
     assert!((t.interval.1 - 2.022427).abs() < 1e-6, "{t:?}");
     assert!(!t.equivalent);
@@ -37,23 +36,23 @@ fn tost_not_equivalent_hand_worked() {
 fn tost_equivalent_hand_worked() {
     // estimate 0.3, se 0.4, margin 1.5: interval 0.3 ± 0.657942 = (−0.357942, 0.957942),
     // inside (−1.5, 1.5): equivalent. p = max(1 − Φ(4.5), 1 − Φ(3.0)) = 1 − 0.99865 = 0.00135.
-    let t = two_one_sided(0.3, 0.4, 1.5, 0.05).unwrap();
+    let t = tost(0.3, 0.4, 1.5, 0.05, None).unwrap();
     assert!((t.interval.0 + 0.357942).abs() < 1e-6 && (t.interval.1 - 0.957942).abs() < 1e-6);
     assert!(t.equivalent);
     assert!((t.p_value - 0.00135).abs() < 5e-6, "{t:?}");
     // The decision and the p-value agree: equivalent exactly when p < α.
     for est in [-1.0, -0.5, 0.0, 0.7, 0.84, 0.86, 1.2] {
-        let t = two_one_sided(est, 0.4, 1.5, 0.05).unwrap();
+        let t = tost(est, 0.4, 1.5, 0.05, None).unwrap();
         assert_eq!(t.equivalent, t.p_value < 0.05, "estimate {est}: {t:?}");
     }
 }
 
 #[test]
 fn tost_refuses_bad_arguments() {
-    assert!(two_one_sided(0.0, 0.0, 1.0, 0.05).is_err());
-    assert!(two_one_sided(0.0, 1.0, -1.0, 0.05).is_err());
-    assert!(two_one_sided(f64::NAN, 1.0, 1.0, 0.05).is_err());
-    assert!(two_one_sided(0.0, 1.0, 1.0, 0.5).is_err());
+    assert!(tost(0.0, 0.0, 1.0, 0.05, None).is_err());
+    assert!(tost(0.0, 1.0, -1.0, 0.05, None).is_err());
+    assert!(tost(f64::NAN, 1.0, 1.0, 0.05, None).is_err());
+    assert!(tost(0.0, 1.0, 1.0, 0.5, None).is_err());
 }
 
 #[test]
@@ -65,7 +64,7 @@ fn wald_hand_worked() {
     let cov = Matrix6::from_diagonal(&Vector6::new(1.0, 4.0, 1.0, 1.0, 1.0, 1.0));
     let projector = observed_projector(&[cov]);
     assert!((projector - Matrix6::identity()).norm() < 1e-12);
-    let w = wald_no_change(&change, &cov, &projector).unwrap();
+    let w = wald_on_observed(&change, &cov, &projector).unwrap();
     assert!((w.statistic - 2.0).abs() < 1e-12);
     assert_eq!(w.dof, 6);
     let expected = 2.5 / std::f64::consts::E;
@@ -89,11 +88,11 @@ fn wald_ignores_unobserved_directions() {
     );
     let small = Vector6::new(0.5, -0.2, 0.1, 0.0, 0.05, 0.0);
     let huge = small + Vector6::new(0.0, 0.0, 0.0, 40.0, 0.0, -40.0);
-    let a = wald_no_change(&small, &(before + after), &projector).unwrap();
-    let b = wald_no_change(&huge, &(before + after), &projector).unwrap();
+    let a = wald_on_observed(&small, &(before + after), &projector).unwrap();
+    let b = wald_on_observed(&huge, &(before + after), &projector).unwrap();
     assert_eq!(a.dof, 4);
     assert!((a.statistic - b.statistic).abs() < 1e-9 * a.statistic.max(1.0));
-    let none = wald_no_change(
+    let none = wald_on_observed(
         &small,
         &Matrix6::zeros(),
         &observed_projector(&[Matrix6::zeros()]),

@@ -18,14 +18,15 @@ use crate::commands::survey::{
 };
 use crate::session::{InputError, Policy};
 use crate::stats::distributions::normal_quantile;
+use crate::stats::multivariate::{observed_projector, tost, wald_on_observed};
 use crate::stats::StatsError;
+use crate::tol;
 
 pub mod camera;
-pub mod equivalence;
 pub mod side;
 
+pub use crate::stats::multivariate::WaldTest;
 pub use camera::{CameraComparison, CameraDifference};
-pub use equivalence::WaldTest;
 pub use side::{Side, SideKind, SideSummary};
 
 /// Version of the comparison report layout.
@@ -200,10 +201,10 @@ pub fn compare_sides(
         propagation::transform(&a_after, &after.covariance),
     ];
     let covariance = mapped[0] + mapped[1];
-    let projector = equivalence::observed_projector(&mapped);
-    let observed = equivalence::observed_axes(&projector);
+    let projector = observed_projector(&mapped);
+    let observed = observed_axes(&projector);
     let estimate = change.to_report_vector();
-    let wald = equivalence::wald_no_change(&estimate, &covariance, &projector)?;
+    let wald = wald_on_observed(&estimate, &covariance, &projector)?;
     let axes = axis_tests(&estimate, &covariance, &observed, policy)?;
     let outcome = decide(&axes);
     let half = half_widths(&covariance, &observed)?;
@@ -238,6 +239,11 @@ pub fn compare_sides(
         policy: *policy,
         warnings,
     })
+}
+
+/// Whether each axis lies in the observed subspace (up to [`tol::AXIS_OBSERVABLE_RESIDUAL`]).
+pub fn observed_axes(projector: &Matrix6<f64>) -> [bool; 6] {
+    std::array::from_fn(|k| 1.0 - projector[(k, k)] <= tol::AXIS_OBSERVABLE_RESIDUAL)
 }
 
 fn change_test(wald: WaldTest) -> ChangeTest {
@@ -290,7 +296,9 @@ fn axis_tests(
             if !(observed[k] && se > 0.0) {
                 return Ok(test);
             }
-            let pair = equivalence::two_one_sided(estimate[k], se, tolerance, ALPHA)?;
+            // Normal reference: `se` comes from an effective covariance estimated from hundreds
+            // of frames (its own error is a few percent).
+            let pair = tost(estimate[k], se, tolerance, ALPHA, None)?;
             let (lo, hi) = pair.interval;
             test.standard_error = Some(se);
             test.interval = Some([lo, hi]);

@@ -212,12 +212,61 @@ pub struct WaldTest {
     pub p_value: Option<f64>,
 }
 
+/// Projector onto the directions every covariance observes: the intersection of their ranges.
+///
+/// A covariance here is the pseudo-inverse of an information matrix, so a zero eigenvalue
+/// marks a direction the data do not observe (infinite variance), not a perfectly known one.
+/// The complement of the intersection is spanned by the null spaces, so
+/// `Π = I − proj(Σ_i (I − proj(range C_i)))`.
+pub fn observed_projector(covariances: &[Matrix6<f64>]) -> Matrix6<f64> {
+    // Built from the null eigenvectors themselves (not `I − projector`, whose rounding of
+    // about 1e-16 would count as spurious directions).
+    let mut outside = Matrix6::zeros();
+    for c in covariances {
+        let spectrum = information_sum_spectrum(c);
+        for k in (0..6).filter(|&k| spectrum.values[k] <= 0.0) {
+            let v = spectrum.vectors.column(k);
+            outside += v * v.transpose();
+        }
+    }
+    Matrix6::identity() - information_sum_spectrum(&outside).range_projector()
+}
+
+/// Wald (1943, Trans. AMS 54:426-482) test of H0 `change = 0` for an estimate with covariance
+/// `C`, restricted to the observed subspace `Π` ([`observed_projector`]):
+/// `W = dᵀ (Π C Π)⁺ d`, `d = Π · change`, chi-square with `rank(Π C Π)` degrees of freedom
+/// under H0. Correlated frames are allowed for by `C` itself (an effective covariance).
+pub fn wald_on_observed(
+    change: &Vector6<f64>,
+    covariance: &Matrix6<f64>,
+    projector: &Matrix6<f64>,
+) -> Result<WaldTest, StatsError> {
+    if change
+        .iter()
+        .chain(covariance.iter())
+        .any(|v| !v.is_finite())
+    {
+        return Err(StatsError::NonFinite {
+            index: 0,
+            what: "change or its covariance",
+        });
+    }
+    let d = projector * change;
+    let spectrum = information_sum_spectrum(&(projector * covariance * projector));
+    let statistic = d.dot(&(spectrum.pseudo_inverse() * d)).max(0.0);
+    let dof = spectrum.rank;
+    Ok(WaldTest {
+        statistic,
+        dof,
+        p_value: (dof > 0)
+            .then(|| chi2_sf(statistic, dof as f64))
+            .transpose()?,
+    })
+}
+
 /// Wald test of H0: `a = b` for independent estimates with covariances `Pa`, `Pb`:
-/// `W = dᵀ (Π (Pa + Pb) Π)⁺ d ~ chi2(r)` with `d = Π(a − b)` (Wald 1943, Trans. AMS
-/// 54:426-482). As everywhere in these statistics a zero eigenvalue of a covariance marks an
-/// unobservable direction (the pseudo-inverse of a singular information), so the test is
-/// restricted by the projector `Π` onto the directions both estimates observe,
-/// `range(Pa) ∩ range(Pb)`, and `r` is the rank there.
+/// [`wald_on_observed`] of `a − b` with covariance `Pa + Pb` on the directions both estimates
+/// observe, `range(Pa) ∩ range(Pb)`.
 pub fn wald_difference(
     a: &Vector6<f64>,
     cov_a: &Matrix6<f64>,
@@ -230,22 +279,8 @@ pub fn wald_difference(
             what: "estimate",
         });
     }
-    let outside =
-        |c: &Matrix6<f64>| Matrix6::identity() - information_sum_spectrum(c).range_projector();
-    // Directions outside either range span the complement of the intersection.
-    let complement = information_sum_spectrum(&(outside(cov_a) + outside(cov_b)));
-    let common = Matrix6::identity() - complement.range_projector();
-    let d = common * (a - b);
-    let spectrum = information_sum_spectrum(&(common * (cov_a + cov_b) * common));
-    let statistic = d.dot(&(spectrum.pseudo_inverse() * d));
-    let dof = spectrum.rank;
-    Ok(WaldTest {
-        statistic,
-        dof,
-        p_value: (dof > 0)
-            .then(|| chi2_sf(statistic, dof as f64))
-            .transpose()?,
-    })
+    let projector = observed_projector(&[*cov_a, *cov_b]);
+    wald_on_observed(&(a - b), &(cov_a + cov_b), &projector)
 }
 
 /// Two one-sided tests (TOST) for equivalence of one quantity within `(−margin, margin)`.
