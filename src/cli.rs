@@ -422,9 +422,7 @@ fn run_overlay(args: &OverlayArgs) -> Result<ExitCode, CliError> {
     output::write_file_atomically(&args.out, |w| write_overlay_png(w, &outcome))?;
     let mut stdout = io::stdout().lock();
     let printed = if args.json {
-        serde_json::to_writer_pretty(&mut stdout, &outcome)
-            .map_err(io::Error::from)
-            .and_then(|()| writeln!(stdout))
+        write_pretty_json(&mut stdout, &outcome)
     } else {
         let mut text = format!("wrote {}\n", args.out.display());
         for line in overlay_text_lines(&outcome) {
@@ -452,9 +450,7 @@ fn run_simulate(args: &SimulateArgs) -> Result<ExitCode, CliError> {
     let outcome = simulate::run(&SimulateOptions::from(args))?;
     let mut stdout = io::stdout().lock();
     let printed = if args.json {
-        serde_json::to_writer_pretty(&mut stdout, &outcome)
-            .map_err(io::Error::from)
-            .and_then(|()| writeln!(stdout))
+        write_pretty_json(&mut stdout, &outcome)
     } else {
         writeln!(
             stdout,
@@ -503,9 +499,7 @@ fn run_from_exif(args: &FromExifArgs) -> Result<ExitCode, CliError> {
     }
     let mut stdout = io::stdout().lock();
     let printed = if args.json {
-        serde_json::to_writer_pretty(&mut stdout, &outcome)
-            .map_err(io::Error::from)
-            .and_then(|()| writeln!(stdout))
+        write_pretty_json(&mut stdout, &outcome)
     } else if args.out.is_some() {
         writeln!(
             stdout,
@@ -519,6 +513,20 @@ fn run_from_exif(args: &FromExifArgs) -> Result<ExitCode, CliError> {
         stdout.write_all(yaml.as_bytes())
     };
     finish_stdout(printed)
+}
+
+/// `value` as indented JSON and a final newline.
+fn write_pretty_json(w: &mut impl Write, value: &impl serde::Serialize) -> io::Result<()> {
+    serde_json::to_writer_pretty(&mut *w, value).map_err(io::Error::from)?;
+    writeln!(w)
+}
+
+/// The exit code of a gated command: 0 pass, 1 fail.
+fn gate_exit_code(gate: Gate) -> ExitCode {
+    match gate {
+        Gate::Pass => ExitCode::SUCCESS,
+        Gate::Fail => ExitCode::from(1),
+    }
 }
 
 /// A closed pipe (`| head`) is the reader's choice, not a failure.
@@ -549,10 +557,7 @@ fn run_audit(args: &AuditArgs) -> Result<ExitCode, CliError> {
         write_audit_summary(&mut stdout, &outcome, TerminalStyle::detect())
     };
     finish_stdout(printed)?;
-    Ok(match outcome.gate {
-        Gate::Pass => ExitCode::SUCCESS,
-        Gate::Fail => ExitCode::from(1),
-    })
+    Ok(gate_exit_code(outcome.gate))
 }
 
 fn run_survey(args: &SurveyArgs) -> Result<ExitCode, CliError> {
@@ -602,8 +607,5 @@ fn run_compare(args: &CompareArgs) -> Result<ExitCode, CliError> {
         write_compare_summary(&mut stdout, &outcome, TerminalStyle::detect())
     };
     finish_stdout(printed)?;
-    Ok(match outcome.gate {
-        Gate::Pass => ExitCode::SUCCESS,
-        Gate::Fail => ExitCode::from(1),
-    })
+    Ok(gate_exit_code(outcome.gate))
 }
