@@ -205,7 +205,13 @@ struct Incumbent {
 
 impl Incumbent {
     fn offer(&mut self, total: f64, start: usize) {
-        if total < self.total || (total == self.total && start < self.start) {
+        // An exact tie goes to the earlier start, as in the published search.
+        let better = match total.partial_cmp(&self.total) {
+            Some(std::cmp::Ordering::Less) => true,
+            Some(std::cmp::Ordering::Equal) => start < self.start,
+            _ => false,
+        };
+        if better {
             (self.total, self.start) = (total, start);
         }
     }
@@ -248,7 +254,7 @@ impl<'a, C: SegmentCost> BoundedSearch<'a, C> {
     fn complete_nodes(&mut self, admissible_end: usize) {
         for j in 0..self.nodes.len() {
             let size = LEAF_STARTS << j;
-            if admissible_end % size != 0 {
+            if !admissible_end.is_multiple_of(size) {
                 break;
             }
             let k = admissible_end / size - 1;
