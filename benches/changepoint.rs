@@ -1,11 +1,12 @@
 //! Change-point search speed: exact PELT on a million 6-D samples, the ruptures-compatible search
 //! on the 2000 x 6 signal timed in Python by scripts/bench_ruptures.py, the per-frame information
-//! cost, and one penalty calibration. Figures are recorded in docs/benchmarks.md.
+//! cost, PELT as published against the bound-tree search on long segments, and one penalty
+//! calibration. Figures are recorded in docs/benchmarks.md.
 
 use std::hint::black_box;
 
 use criterion::{criterion_group, criterion_main, Criterion};
-use mountdrift::stats::changepoint::{pelt, pelt_ruptures};
+use mountdrift::stats::changepoint::{pelt, pelt_pruned, pelt_ruptures};
 use mountdrift::stats::cost::{InformationCost, L2Cost};
 use mountdrift::stats::penalty::{CalibrationSettings, PenaltyCalibrator};
 use nalgebra::{Matrix6, Vector6};
@@ -77,12 +78,17 @@ fn million_samples(c: &mut Criterion) {
 fn sparse_changes(c: &mut Criterion) {
     let mut group = c.benchmark_group("pelt_sparse_6d");
     group.sample_size(10);
-    for n in [5_000usize, 20_000] {
+    for n in [5_000usize, 20_000, 1_000_000] {
         let cost = L2Cost::from_vectors(&stepped_series(n, n / 4, 2)).unwrap();
         group.bench_function(format!("n{n}_four_segments"), |b| {
             b.iter(|| pelt(black_box(&cost), 40.0, 10).unwrap())
         });
     }
+    // PELT as published on the same series, for the ratio (quadratic in the segment length).
+    let cost = L2Cost::from_vectors(&stepped_series(20_000, 5_000, 2)).unwrap();
+    group.bench_function("n20000_four_segments_pelt_pruned", |b| {
+        b.iter(|| pelt_pruned(black_box(&cost), 40.0, 10).unwrap())
+    });
     group.finish();
 }
 
@@ -96,6 +102,18 @@ fn information_cost(c: &mut Criterion) {
     let mut group = c.benchmark_group("information_cost_20k_6d");
     group.sample_size(10);
     group.bench_function("search_changes_every_200", |b| {
+        b.iter(|| pelt(black_box(&cost), 40.0, 10).unwrap())
+    });
+    group.finish();
+    // 100,000 frames of varying information without any change: the audit's case.
+    let series = stepped_series(100_000, 100_000, 5);
+    let omega: Vec<Matrix6<f64>> = (0..series.len())
+        .map(|_| Matrix6::identity() * (0.5 + rng.random::<f64>()))
+        .collect();
+    let cost = InformationCost::new(&series, &omega, 6).unwrap();
+    let mut group = c.benchmark_group("information_cost_100k_6d");
+    group.sample_size(10);
+    group.bench_function("search_no_change", |b| {
         b.iter(|| pelt(black_box(&cost), 40.0, 10).unwrap())
     });
     group.finish();

@@ -246,3 +246,11 @@ pub const GROSS_FRAME_ROBUST_SIGMA: f64 = 10.0;
 /// frames, about one second at 30 Hz) keeps the median and MAD of the window robust to several
 /// bad frames while following a real mount step within half a window.
 pub const GROSS_FRAME_HALF_WINDOW: usize = 15;
+
+/// The change-point search skips a group of candidate starts when a lower bound on their totals
+/// exceeds the best total found by more than this fraction of the magnitudes involved (costs of
+/// the whole series, the bound, the best total). Costs from prefix sums carry rounding of about
+/// 1e-16 of those magnitudes per operation; 1e-9 leaves a wide margin, so a start that could tie
+/// in floating point is always evaluated, while the bound still rules out groups whose totals
+/// are worse by a fraction of a penalty (the penalties are 10 or more cost units).
+pub const PELT_BOUND_SLACK_REL: f64 = 1e-9;

@@ -1,5 +1,6 @@
-//! Exact penalised change-point search: PELT, a ruptures-compatible PELT and the unpruned
-//! optimal partitioning it must agree with.
+//! Exact penalised change-point search: PELT with a bound tree for long segments ([`pelt`]),
+//! PELT as published ([`pelt_pruned`]), a ruptures-compatible PELT and the unpruned optimal
+//! partitioning they must all agree with.
 //!
 //! All three minimise `Σ_segments C(segment) + β · (number of change points)` over segmentations
 //! whose segments have at least `min_size` samples. PELT (Killick, Fearnhead & Eckley 2012,
@@ -9,6 +10,7 @@
 
 use super::cost::SegmentCost;
 use super::StatsError;
+use crate::tol;
 
 /// An optimal segmentation: the segment ends (the last one is the series length, as in
 /// ruptures) and the minimised objective `Σ C + β · (segments − 1)`.
@@ -132,7 +134,208 @@ impl Candidates {
     }
 }
 
-/// Exact PELT with the `K = 0` pruning rule and a minimum segment length.
+/// The exact penalised search ([`pelt_pruned`]'s optimum and breakpoints, ties to the earliest
+/// last change point) in O(n log n) cost evaluations when segments are long.
+///
+/// Same recursion `F(s) = min_t F(t) + C(t, s) + β`, but the candidate starts are grouped in a
+/// fixed dyadic tree (leaves of [`LEAF_STARTS`] starts). A node holding the starts `[a, b)`
+/// stores `M = min_t F(t) + C(t, b)` once all of them are admissible. Because a split never
+/// raises the cost, `C(t, s) >= C(t, b) + C(b, s)` for `t < b <= s`, so
+/// `M + C(b, s) + β` is a lower bound on every total in the node: a node whose bound exceeds the
+/// best total found so far (the previous end's argmin is evaluated first) is skipped whole, and
+/// only nodes that might hold the minimum are opened down to their starts. This is the bounding
+/// step of branch and bound (Land & Doig 1960, Econometrica 28:497-520) applied to the
+/// optimal-partitioning recursion (Jackson et al. 2005) with the superadditivity PELT's
+/// pruning rests on (Killick, Fearnhead & Eckley 2012, section 3).
+///
+/// Why it helps where PELT does not: inside a homogeneous stretch that began at `c`, the bound
+/// of a node `[a, b)` exceeds the total of `c` by `β − G(c, t*, b) − G(c, b, s)` (two split
+/// gains, each about a chi-square on clean data), so with a calibrated β nearly every node is
+/// skipped at the top of the tree, whatever the stretch length. Nodes before a change point are
+/// skipped because their bound carries the cost of the change. The bound only drops rounding
+/// when it is larger than the best total by more than [`tol::PELT_BOUND_SLACK_REL`] of the
+/// magnitudes involved, so every start that could tie is evaluated with the same arithmetic as
+/// [`pelt_pruned`].
+pub fn pelt<C: SegmentCost>(
+    cost: &C,
+    penalty: f64,
+    min_size: usize,
+) -> Result<Segmentation, StatsError> {
+    let n = cost.n_samples();
+    check_search(n, penalty, min_size)?;
+    let mut search = BoundedSearch::new(cost, penalty, n);
+    for end in min_size..=n {
+        // Starts `t < admissible_end` are admissible at `end` (those with a finite `F(t)`).
+        let admissible_end = end - min_size + 1;
+        search.complete_nodes(admissible_end);
+        search.solve_end(end, admissible_end);
+    }
+    Ok(Segmentation {
+        breakpoints: backtrack(&search.last, n),
+        objective: search.best[n] - penalty,
+    })
+}
+
+/// Starts per leaf of [`pelt`]'s bound tree: enough that the per-node overhead is small, few
+/// enough that opening a leaf costs little.
+pub const LEAF_STARTS: usize = 16;
+
+/// State of [`pelt`]: `F`, the argmins, and the node minima `M` of the bound tree.
+struct BoundedSearch<'a, C> {
+    cost: &'a C,
+    penalty: f64,
+    best: Vec<f64>,
+    last: Vec<usize>,
+    /// `nodes[j][k]`: `M` of node `k` of size `LEAF_STARTS << j` (infinite until complete, or
+    /// when none of its starts is admissible).
+    nodes: Vec<Vec<f64>>,
+    /// Magnitude of the costs, for the rounding slack of the bound.
+    scale: f64,
+    previous_argmin: usize,
+    starts: Vec<usize>,
+    totals: Vec<f64>,
+}
+
+/// The best total found so far at one end, and its start.
+#[derive(Clone, Copy)]
+struct Incumbent {
+    total: f64,
+    start: usize,
+}
+
+impl Incumbent {
+    fn offer(&mut self, total: f64, start: usize) {
+        // An exact tie goes to the earlier start, as in the published search.
+        let better = match total.partial_cmp(&self.total) {
+            Some(std::cmp::Ordering::Less) => true,
+            Some(std::cmp::Ordering::Equal) => start < self.start,
+            _ => false,
+        };
+        if better {
+            (self.total, self.start) = (total, start);
+        }
+    }
+}
+
+impl<'a, C: SegmentCost> BoundedSearch<'a, C> {
+    fn new(cost: &'a C, penalty: f64, n: usize) -> Self {
+        let mut levels = 1;
+        while LEAF_STARTS << (levels - 1) < n + 1 {
+            levels += 1;
+        }
+        let nodes = (0..levels)
+            .map(|j| vec![f64::INFINITY; (n + 1) / (LEAF_STARTS << j) + 1])
+            .collect();
+        let mut best = vec![f64::INFINITY; n + 1];
+        best[0] = 0.0;
+        Self {
+            cost,
+            penalty,
+            best,
+            last: vec![0; n + 1],
+            nodes,
+            scale: cost.cost(0, n).abs(),
+            previous_argmin: 0,
+            starts: Vec::with_capacity(LEAF_STARTS << (levels - 1)),
+            totals: Vec::new(),
+        }
+    }
+
+    /// `C(from, to)`, zero for an empty range.
+    fn cost_between(&self, from: usize, to: usize) -> f64 {
+        if to > from {
+            self.cost.cost(from, to)
+        } else {
+            0.0
+        }
+    }
+
+    /// Stores `M` of the nodes whose last start became admissible (they end at `admissible_end`).
+    fn complete_nodes(&mut self, admissible_end: usize) {
+        for j in 0..self.nodes.len() {
+            let size = LEAF_STARTS << j;
+            if !admissible_end.is_multiple_of(size) {
+                break;
+            }
+            let k = admissible_end / size - 1;
+            let minimum = self.minimum_total(k * size..admissible_end, admissible_end);
+            self.nodes[j][k] = minimum.map_or(f64::INFINITY, |m| m.total);
+        }
+    }
+
+    /// The first minimum of `F(t) + C(t, end)` over the admissible starts in `range` (computed
+    /// in [`pelt_pruned`]'s order of operations, penalty excluded).
+    fn minimum_total(&mut self, range: std::ops::Range<usize>, end: usize) -> Option<Incumbent> {
+        self.starts.clear();
+        self.starts
+            .extend(range.filter(|&t| self.best[t].is_finite()));
+        self.totals.resize(self.starts.len(), 0.0);
+        self.cost.costs_to(&self.starts, end, &mut self.totals);
+        let mut found: Option<Incumbent> = None;
+        for (&t, &c) in self.starts.iter().zip(&self.totals) {
+            let total = self.best[t] + c;
+            match &mut found {
+                Some(inc) => inc.offer(total, t),
+                None => found = Some(Incumbent { total, start: t }),
+            }
+        }
+        found
+    }
+
+    /// Offers every admissible start in `range` at `end` to the incumbent.
+    fn evaluate(&mut self, range: std::ops::Range<usize>, end: usize, incumbent: &mut Incumbent) {
+        if let Some(found) = self.minimum_total(range, end) {
+            incumbent.offer(found.total + self.penalty, found.start);
+        }
+    }
+
+    fn solve_end(&mut self, end: usize, admissible_end: usize) {
+        let prev = self.previous_argmin;
+        let mut incumbent = Incumbent {
+            total: self.best[prev] + self.cost.cost(prev, end) + self.penalty,
+            start: prev,
+        };
+        // The maximal complete nodes covering [0, admissible_end), largest first, then the
+        // starts after the last of them.
+        let mut covered = 0;
+        for j in (0..self.nodes.len()).rev() {
+            let size = LEAF_STARTS << j;
+            while covered + size <= admissible_end {
+                self.visit(j, covered / size, end, &mut incumbent);
+                covered += size;
+            }
+        }
+        self.evaluate(covered..admissible_end, end, &mut incumbent);
+        self.best[end] = incumbent.total;
+        self.last[end] = incumbent.start;
+        self.previous_argmin = incumbent.start;
+    }
+
+    /// Opens node `k` of level `j` unless its lower bound rules it out.
+    fn visit(&mut self, j: usize, k: usize, end: usize, incumbent: &mut Incumbent) {
+        let minimum = self.nodes[j][k];
+        if minimum == f64::INFINITY {
+            return;
+        }
+        let size = LEAF_STARTS << j;
+        let node_end = (k + 1) * size;
+        let bound = minimum + self.cost_between(node_end, end) + self.penalty;
+        let slack =
+            tol::PELT_BOUND_SLACK_REL * (1.0 + self.scale + bound.abs() + incumbent.total.abs());
+        if bound > incumbent.total + slack {
+            return;
+        }
+        if j == 0 {
+            self.evaluate(k * size..node_end, end, incumbent);
+        } else {
+            self.visit(j - 1, 2 * k, end, incumbent);
+            self.visit(j - 1, 2 * k + 1, end, incumbent);
+        }
+    }
+}
+
+/// Exact PELT with the `K = 0` pruning rule and a minimum segment length, as published: the
+/// reference [`pelt`] is checked against.
 ///
 /// Recursion: `F(s) = min_t F(t) + C(t, s) + β` over admissible last change points `t`
 /// (`t = 0` or `min_size <= t <= s − min_size`), `F(0) = 0`; the objective is `F(n) − β`.
@@ -147,7 +350,7 @@ impl Candidates {
 /// cost, so `F(t) + C(t, s) <= F(c) + C(c, s)`), so the work is O(n · L) cost evaluations for a
 /// longest segment of L samples: linear when change points are dense, quadratic for a series
 /// without any (Killick et al. 2012 state the same worst case).
-pub fn pelt<C: SegmentCost>(
+pub fn pelt_pruned<C: SegmentCost>(
     cost: &C,
     penalty: f64,
     min_size: usize,

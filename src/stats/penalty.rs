@@ -97,22 +97,35 @@ pub struct PenaltyCalibration {
     pub null_lag1: f64,
     pub runs: usize,
     pub seed: u64,
-    /// The simulated `β*` values, sorted (for p-values of found change points).
+    /// The simulated `β*` values, sorted (for p-values of found change points). Values at or
+    /// below `censor` may be lower bounds (see [`PenaltyCalibrator`]); the penalty and the
+    /// p-values of gains above it are exact.
     #[serde(skip)]
     pub null_critical: Arc<Vec<f64>>,
+    /// Censoring level of the simulated values (−∞ when none is censored).
+    #[serde(skip)]
+    pub censor: f64,
+    /// Number of runs only known to have `β*` at or below `censor`.
+    #[serde(skip)]
+    pub censored_runs: usize,
 }
 
 impl PenaltyCalibration {
     /// The probability that a clean series of this length shows a change point at least as
     /// strong (a likelihood-ratio gain at least `gain`): `(1 + #{β* >= gain})/(R + 1)`, scaled
-    /// to the series length like the rate.
+    /// to the series length like the rate. A gain at or below the censoring level (never that of
+    /// a detected change point, whose gain is at least the penalty) counts every censored run as
+    /// exceeding it: an upper bound.
     pub fn p_value(&self, gain: f64) -> f64 {
-        let exceed = self
+        let mut exceed = self
             .null_critical
             .iter()
             .rev()
             .take_while(|&&b| b >= gain)
             .count();
+        if gain <= self.censor {
+            exceed = (exceed + self.censored_runs).min(self.runs);
+        }
         let simulated = (1 + exceed) as f64 / (self.runs + 1) as f64;
         let scale = self.false_alarm_rate / self.simulated_rate;
         (simulated * scale).min(1.0)
@@ -125,21 +138,35 @@ impl PenaltyCalibration {
 /// current β (Dinkelbach's method for a ratio; each step strictly increases β until PELT
 /// returns the single segment), started from the best single split.
 pub fn critical_penalty<C: SegmentCost>(cost: &C, min_size: usize) -> Result<f64, StatsError> {
+    let start = best_single_split_gain(cost, min_size);
+    Ok(critical_penalty_above(cost, min_size, start)?.unwrap_or(start))
+}
+
+/// `β*(y)` when it exceeds `start`, `None` when it does not (PELT at `start` reports no change
+/// point, so `β* <= start`). Each Dinkelbach step β ← (C_0 − C(S))/k(S) is the ratio of a
+/// segmentation, hence never above `β*`, so the iteration is exact from any start.
+pub fn critical_penalty_above<C: SegmentCost>(
+    cost: &C,
+    min_size: usize,
+    start: f64,
+) -> Result<Option<f64>, StatsError> {
     let n = cost.n_samples();
     let whole = cost.cost(0, n);
-    let mut beta = best_single_split_gain(cost, min_size);
+    let mut beta = start;
+    let mut moved = false;
     loop {
         let seg = pelt(cost, beta, min_size)?;
         let k = seg.change_points().len();
         if k == 0 {
-            return Ok(beta);
+            return Ok(moved.then_some(beta));
         }
         let fitted = seg.objective - beta * k as f64;
         let next = (whole - fitted) / k as f64;
         if next <= beta * (1.0 + 1e-12) {
-            return Ok(beta);
+            return Ok(Some(beta));
         }
         beta = next;
+        moved = true;
     }
 }
 
@@ -184,8 +211,8 @@ pub fn ar1_series(rng: &mut Pcg64Mcg, n: usize, dim: usize, rho: f64) -> Vec<Vec
         .collect()
 }
 
-/// `β*` of one simulated clean series.
-fn null_critical_penalty(key: &NullKey, seed: u64) -> Result<f64, StatsError> {
+/// One simulated clean series, rescaled by its own effective-noise estimate as the data are.
+fn null_series(key: &NullKey, seed: u64) -> Vec<Vector6<f64>> {
     let mut rng = Pcg64Mcg::seed_from_u64(seed);
     let z = ar1_series(&mut rng, key.n, key.dim, NULL_LAG1_GRID[key.lag1_index]);
     let noise = estimate_effective_noise(
@@ -195,8 +222,20 @@ fn null_critical_penalty(key: &NullKey, seed: u64) -> Result<f64, StatsError> {
         &NoiseScales::for_min_size(key.min_size),
     );
     let map = noise.inverse_sqrt();
-    let y: Vec<Vector6<f64>> = z.iter().map(|v| map * v).collect();
-    critical_penalty(&L2Cost::from_vectors(&y)?, key.min_size)
+    z.iter().map(|v| map * v).collect()
+}
+
+/// Rates up to this one are served by a censored null distribution (see
+/// [`PenaltyCalibrator`]); larger ones simulate every `β*` in full.
+pub const CENSOR_RATE: f64 = 0.2;
+
+/// A simulated null distribution: the sorted `β*` values of the runs. Values at or below
+/// `censor` may be lower bounds (runs only shown to have `β* <= censor`); `censored` counts them.
+#[derive(Debug)]
+struct NullDistribution {
+    sorted: Arc<Vec<f64>>,
+    censor: f64,
+    censored: usize,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -205,6 +244,8 @@ struct NullKey {
     dim: usize,
     min_size: usize,
     lag1_index: usize,
+    /// Whether runs whose `β*` is below the censoring level may stop early.
+    censored: bool,
 }
 
 /// Calibrates penalties by simulation and remembers each simulated null distribution, so that
@@ -212,7 +253,7 @@ struct NullKey {
 #[derive(Debug, Default)]
 pub struct PenaltyCalibrator {
     settings: CalibrationSettings,
-    cache: Mutex<HashMap<NullKey, Arc<Vec<f64>>>>,
+    cache: Mutex<HashMap<NullKey, Arc<NullDistribution>>>,
 }
 
 impl PenaltyCalibrator {
@@ -262,9 +303,15 @@ impl PenaltyCalibrator {
             dim,
             min_size,
             lag1_index: NULL_LAG1_GRID.iter().position(|&g| g >= lag1).unwrap_or(0),
+            censored: false,
         };
-        let betas = self.null_distribution(&key)?;
         let rate = extrapolated_rate(false_alarm_rate, n, key.n, min_size);
+        let key = NullKey {
+            censored: rate <= CENSOR_RATE,
+            ..key
+        };
+        let null = self.null_distribution(&key)?;
+        let betas = null.sorted.clone();
         Ok(PenaltyCalibration {
             penalty: upper_quantile(&betas, rate),
             false_alarm_rate,
@@ -278,28 +325,89 @@ impl PenaltyCalibrator {
             runs: self.settings.runs,
             seed: self.settings.seed,
             null_critical: betas,
+            censor: null.censor,
+            censored_runs: null.censored,
         })
     }
 
-    fn null_distribution(&self, key: &NullKey) -> Result<Arc<Vec<f64>>, StatsError> {
+    /// The null distribution of `key`, simulated once.
+    ///
+    /// Uncensored, every run's `β*` is found by [`critical_penalty`]. Censored (rates up to
+    /// [`CENSOR_RATE`]), only the upper tail is resolved: every run's best single-split gain
+    /// `B_1 <= β*` is computed first, the censoring level `τ` is the order statistic of the `B_1`
+    /// at rank `ceil((1 − CENSOR_RATE)·R)`, and a run with `B_1 < τ` is solved once at `τ`: if
+    /// PELT reports no change point there, `β* <= τ` and `B_1` stands in for it; otherwise the
+    /// Dinkelbach iteration continues from `τ` to the exact `β*`. Since `β*_i >= B_1,i` for every
+    /// run, the order statistics of `β*` at ranks `>= ceil((1 − CENSOR_RATE)·R)` are `>= τ`, so
+    /// every quantile for a rate up to `CENSOR_RATE` and every p-value above `τ` equal those of the
+    /// uncensored distribution (`tests/stats_penalty_censored.rs` checks it). Most runs then
+    /// need one search at a penalty well above their gains, where the search is cheapest.
+    fn null_distribution(&self, key: &NullKey) -> Result<Arc<NullDistribution>, StatsError> {
         if let Some(found) = self.lock().get(key) {
             return Ok(found.clone());
         }
         let seed = stream_seed(self.settings.seed, key.lag1_index as u64);
-        let mut betas = (0..self.settings.runs as u64)
-            .into_par_iter()
-            .map(|i| null_critical_penalty(key, stream_seed(seed, i)))
-            .collect::<Result<Vec<f64>, StatsError>>()?;
-        betas.sort_by(f64::total_cmp);
-        let betas = Arc::new(betas);
-        self.lock().insert(*key, betas.clone());
-        Ok(betas)
+        let runs = 0..self.settings.runs as u64;
+        let null = if key.censored {
+            let firsts: Vec<(Vec<Vector6<f64>>, f64)> = runs
+                .into_par_iter()
+                .map(|i| {
+                    let y = null_series(key, stream_seed(seed, i));
+                    let cost = L2Cost::from_vectors(&y)?;
+                    let first = best_single_split_gain(&cost, key.min_size);
+                    Ok((y, first))
+                })
+                .collect::<Result<_, StatsError>>()?;
+            let mut firsts_sorted: Vec<f64> = firsts.iter().map(|f| f.1).collect();
+            firsts_sorted.sort_by(f64::total_cmp);
+            let censor = upper_quantile(&firsts_sorted, CENSOR_RATE);
+            let resolved = firsts
+                .into_par_iter()
+                .map(|(y, first)| {
+                    let cost = L2Cost::from_vectors(&y)?;
+                    Ok(
+                        match critical_penalty_above(&cost, key.min_size, first.max(censor))? {
+                            Some(beta) => (beta, false),
+                            None if first >= censor => (first, false),
+                            None => (first, true),
+                        },
+                    )
+                })
+                .collect::<Result<Vec<(f64, bool)>, StatsError>>()?;
+            let censored = resolved.iter().filter(|r| r.1).count();
+            NullDistribution {
+                sorted: Arc::new(sorted(resolved.into_iter().map(|r| r.0).collect())),
+                censor,
+                censored,
+            }
+        } else {
+            let betas = runs
+                .into_par_iter()
+                .map(|i| {
+                    let y = null_series(key, stream_seed(seed, i));
+                    critical_penalty(&L2Cost::from_vectors(&y)?, key.min_size)
+                })
+                .collect::<Result<Vec<f64>, StatsError>>()?;
+            NullDistribution {
+                sorted: Arc::new(sorted(betas)),
+                censor: f64::NEG_INFINITY,
+                censored: 0,
+            }
+        };
+        let null = Arc::new(null);
+        self.lock().insert(*key, null.clone());
+        Ok(null)
     }
 
-    fn lock(&self) -> std::sync::MutexGuard<'_, HashMap<NullKey, Arc<Vec<f64>>>> {
+    fn lock(&self) -> std::sync::MutexGuard<'_, HashMap<NullKey, Arc<NullDistribution>>> {
         // A poisoned cache only means another thread panicked mid-insert; the map is still valid.
         self.cache.lock().unwrap_or_else(|e| e.into_inner())
     }
+}
+
+fn sorted(mut values: Vec<f64>) -> Vec<f64> {
+    values.sort_by(f64::total_cmp);
+    values
 }
 
 /// The rate to simulate at length `simulated` so that the rate at length `n` is `alpha`.
