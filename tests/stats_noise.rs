@@ -4,7 +4,8 @@
 use mountdrift::stats::changepoint::pelt;
 use mountdrift::stats::cost::L2Cost;
 use mountdrift::stats::noise::{
-    ar1_long_run_ratio, ar1_matching_long_run, estimate_effective_noise, NoiseScales,
+    ar1_long_run_ratio, ar1_matching_long_run, ar1_scaled_allan, estimate_effective_noise,
+    richardson_long_run, NoiseScales,
 };
 use mountdrift::stats::penalty::{
     ar1_series, critical_penalty, null_lag1, stream_seed, CalibrationSettings, PenaltyCalibrator,
@@ -182,4 +183,90 @@ fn null_coefficient_follows_the_long_run_ratio_of_a_mixture() {
     assert!(white.scale_lag1 < 0.1, "white {}", white.scale_lag1);
     assert_eq!(ar1_matching_long_run(0.8), 0.0);
     assert!((ar1_matching_long_run(3.0) - 0.5).abs() < 1e-15);
+}
+
+/// The Richardson step `2G(2τ) − G(τ)` against the exact long-run variance, with `G` from the
+/// AR(1) closed form (checked above against a direct covariance sum): AR(1) ρ = 0.5 and the
+/// mixture 75% white + 25% AR(0.8), both with long-run variance 3 (Box & Jenkins, ch. 3). The
+/// plain Allan variance at τ = 40 misses 5% and 12.5% of it; extrapolated, both are within 1%.
+#[test]
+fn richardson_step_removes_the_shape_dependent_allan_bias() {
+    fn mixture(tau: usize) -> f64 {
+        0.75 + 0.25 * ar1_scaled_allan(0.8, tau)
+    }
+    fn ar(tau: usize) -> f64 {
+        ar1_scaled_allan(0.5, tau)
+    }
+    assert!((mixture(40) / 3.0 - 0.875).abs() < 0.005);
+    assert!((ar(40) / 3.0 - 0.95).abs() < 0.005);
+    for g in [mixture as fn(usize) -> f64, ar] {
+        let extrapolated = richardson_long_run(g(20), g(40));
+        assert!((extrapolated / 3.0 - 1.0).abs() < 0.01, "{extrapolated}");
+    }
+}
+
+/// One seeded series of `n` whitened samples: white noise plus an AR(1) share, plus (optionally)
+/// a sine vibration of amplitude `vibration` (in units of the white sigma) and period `period`
+/// samples with a random phase, on every coordinate.
+fn structured(
+    seed: u64,
+    n: usize,
+    share: f64,
+    rho: f64,
+    vibration: f64,
+    period: f64,
+) -> Vec<Vector6<f64>> {
+    let mut rng = Pcg64Mcg::seed_from_u64(seed);
+    let slow = ar1_series(&mut rng, n, 6, rho);
+    let white = ar1_series(&mut rng, n, 6, 0.0);
+    let phase = ar1_series(&mut rng, 1, 6, 0.0)[0] * 3.0;
+    (0..n)
+        .map(|t| {
+            let angle = std::f64::consts::TAU * t as f64 / period;
+            slow[t] * share.sqrt()
+                + white[t] * (1.0 - share).sqrt()
+                + phase.map(|p| vibration * (angle + p).sin())
+        })
+        .collect()
+}
+
+/// Honest intervals for a mean: over 300 seeded series of 1000 samples (long enough for the scales 10, 20, 40
+/// of the Richardson step with the default grid) the standardised error of
+/// the series mean, `mean / √(λ̂/n)` with `λ̂` the long-run factor of each direction (the scaled
+/// Allan variances with the Richardson step, section 8 of the method), has standard deviation
+/// within 0.1 of 1 (1800 values per case; a standard error of about 0.017, and the estimate of
+/// `λ` is itself noisy, which widens the t-like tails by a few percent; tolerance common
+/// practice). Cases: 75% white + 25%
+/// AR(0.8) (true long-run variance 3), the same with a 1-sigma vibration of period 9 samples,
+/// and white noise. The mean of the noise is zero, so the error is the mean itself.
+#[test]
+fn long_run_variance_gives_segment_means_unit_standardised_error() {
+    let n = 1000;
+    let scales = NoiseScales::for_min_size(10);
+    for (case, (share, vibration)) in [(0.25, 0.0), (0.25, 1.0), (0.0, 0.0)]
+        .into_iter()
+        .enumerate()
+    {
+        let mut errors = Vec::new();
+        for i in 0..300 {
+            let z = structured(
+                stream_seed(40 + case as u64, i),
+                n,
+                share,
+                0.8,
+                vibration,
+                9.0,
+            );
+            let noise = estimate_effective_noise(&z, 6, &[(0, n)], &scales);
+            let mean = noise.directions.transpose() * z.iter().sum::<Vector6<f64>>() / n as f64;
+            let lr = noise.long_run_factors;
+            errors.extend((0..6).map(|j| mean[j] / (lr[j] / n as f64).sqrt()));
+        }
+        let sd = (errors.iter().map(|e| e * e).sum::<f64>() / errors.len() as f64).sqrt();
+        eprintln!("case {case}: sd {sd:.3}");
+        assert!(
+            (sd - 1.0).abs() < 0.1,
+            "case {case}: standardised error sd {sd}"
+        );
+    }
 }
