@@ -49,7 +49,9 @@ Segments (mount deviation from the nominal)
 
 Fixed-offset error (tolerance 30.0 mm within 15.0 m range)
   max 41.3 mm, 214 frames over tolerance, the first at frame 1807
-  against truth: dual-object error p95 2.6 mm (max 4.9), fixed-offset p95 37.8 mm (max 44.0)
+  true error p95, mm  0-5 m  5-10 m  10-15 m  15-40 m  within 15.0 m  all ranges
+    dual-object         0.9     1.5      2.1      3.1            1.6         2.6
+    fixed-offset       39.9    36.0     33.5     28.0           39.1        37.8
 
 Data quality
   frames       3000 read, 2950 solved (2920 with the drogue), 50 rejected
@@ -103,6 +105,38 @@ fn colour_only_adds_styling() {
         "{coloured}"
     );
     assert_eq!(strip_ansi(&coloured), plain);
+}
+
+#[test]
+fn truth_is_given_within_the_contact_range_and_by_range() {
+    let text = summary(&report_demo::shifted_outcome(), TerminalStyle::PLAIN);
+    let head = text
+        .lines()
+        .find(|l| l.starts_with("  true error p95, mm"))
+        .expect("a truth table");
+    let heads: Vec<&str> = head
+        .split("  ")
+        .map(str::trim)
+        .filter(|s| !s.is_empty())
+        .collect();
+    assert_eq!(
+        heads[1..],
+        [
+            "0-5 m",
+            "5-10 m",
+            "10-15 m",
+            "15-40 m",
+            "within 15.0 m",
+            "all ranges"
+        ]
+    );
+    // Every frame within the contact range: one column says so instead of two equal ones.
+    let mut outcome = report_demo::shifted_outcome();
+    let truth = outcome.truth.as_mut().unwrap();
+    truth.dual_within_contact_mm = Some(truth.dual_error_mm);
+    let text = summary(&outcome, TerminalStyle::PLAIN);
+    assert!(text.contains("within 15.0 m (all)"), "{text}");
+    assert!(!text.contains("all ranges"), "{text}");
 }
 
 #[test]

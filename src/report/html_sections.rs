@@ -2,7 +2,9 @@
 //! outcome (text escaped by the table and fact helpers) with its plot inlined.
 
 use crate::camera::Distortion;
-use crate::commands::audit::{AuditOutcome, ChangePoint, ErrorStats, RangeBin, Segment};
+use crate::commands::audit::{
+    AuditOutcome, ChangePoint, ErrorStats, RangeBin, Segment, TruthRangeBin,
+};
 
 use super::format::{fixed, p_value, reason, signed, with_ci};
 use super::html::{facts, figure, table};
@@ -214,11 +216,7 @@ pub(super) fn fixed_offset(outcome: &AuditOutcome, plot: &str) -> String {
 
 fn range_row(bin: &RangeBin) -> Vec<String> {
     vec![
-        format!(
-            "{} to {}",
-            fixed(bin.range_min_m, 1),
-            fixed(bin.range_max_m, 1)
-        ),
+        range_text(bin.range_min_m, bin.range_max_m),
         bin.error_mm.frames.to_string(),
         fixed(bin.error_mm.median, 1),
         fixed(bin.error_mm.p95, 1),
@@ -230,20 +228,84 @@ fn truth(outcome: &AuditOutcome) -> String {
     let Some(truth) = &outcome.truth else {
         return String::new();
     };
-    let mut rows = vec![error_stats_row(
-        "dual-object (both poses solved)",
-        &truth.dual_error_mm,
-    )];
-    if let Some(f) = &truth.fixed_error_mm {
-        rows.push(error_stats_row("fixed-offset (nominal mount)", f));
+    let within = format!("within {} m", fixed(truth.contact_range_m, 1));
+    let mut rows = Vec::new();
+    let pipelines = [
+        (
+            "dual-object (both poses solved)",
+            truth.dual_within_contact_mm.as_ref(),
+            Some(&truth.dual_error_mm),
+        ),
+        (
+            "fixed-offset (nominal mount)",
+            truth.fixed_within_contact_mm.as_ref(),
+            truth.fixed_error_mm.as_ref(),
+        ),
+    ];
+    for (name, near, all) in pipelines {
+        if let Some(e) = near {
+            rows.push(error_stats_row(name, &within, e));
+        }
+        if let Some(e) = all {
+            rows.push(error_stats_row(name, "all ranges", e));
+        }
     }
-    let head = ["pipeline", "frames", "median mm", "p95 mm", "max mm"];
-    format!("<h3>Against truth</h3>\n{}", table(&head, &rows, 1))
+    let mut out = String::from("<h3>Against truth</h3>\n");
+    out.push_str(&paragraph(&format!(
+        "The true error of each pipeline's probe-to-drogue vector. The tolerance applies {within} \
+         (contact); far from the drogue both pipelines err more because the drogue's own pose \
+         is less certain there, so compare them range by range."
+    )));
+    let head = [
+        "pipeline",
+        "ranges",
+        "frames",
+        "median mm",
+        "p95 mm",
+        "max mm",
+    ];
+    out.push_str(&table(&head, &rows, 2));
+    if !truth.by_range.is_empty() {
+        out.push_str("<h4>True error by range</h4>\n");
+        let head = [
+            "range (m)",
+            "dual-object frames",
+            "dual-object median mm",
+            "dual-object p95 mm",
+            "fixed-offset frames",
+            "fixed-offset median mm",
+            "fixed-offset p95 mm",
+        ];
+        let rows: Vec<Vec<String>> = truth.by_range.iter().map(truth_range_row).collect();
+        out.push_str(&table(&head, &rows, 1));
+    }
+    out
 }
 
-fn error_stats_row(name: &str, e: &ErrorStats) -> Vec<String> {
+fn truth_range_row(bin: &TruthRangeBin) -> Vec<String> {
+    let mut row = vec![range_text(bin.range_min_m, bin.range_max_m)];
+    for e in [&bin.dual_error_mm, &bin.fixed_error_mm] {
+        match e {
+            Some(e) => row.extend([e.frames.to_string(), fixed(e.median, 1), fixed(e.p95, 1)]),
+            None => row.extend(["0".into(), "n/a".into(), "n/a".into()]),
+        }
+    }
+    row
+}
+
+/// A range bin as text; the last bin is open-ended.
+fn range_text(lo_m: f64, hi_m: f64) -> String {
+    if hi_m.is_finite() {
+        format!("{} to {}", fixed(lo_m, 1), fixed(hi_m, 1))
+    } else {
+        format!("{} and beyond", fixed(lo_m, 1))
+    }
+}
+
+fn error_stats_row(name: &str, ranges: &str, e: &ErrorStats) -> Vec<String> {
     vec![
         name.into(),
+        ranges.into(),
         e.frames.to_string(),
         fixed(e.median, 1),
         fixed(e.p95, 1),

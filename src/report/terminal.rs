@@ -4,7 +4,9 @@
 
 use std::io::{self, Write};
 
-use crate::commands::audit::{AuditOutcome, ChangePoint, Gate, Segment, Verdict};
+use crate::commands::audit::{
+    AuditOutcome, ChangePoint, ErrorStats, Gate, Segment, TruthRangeBin, Verdict,
+};
 
 use super::format::{
     fixed, gate_word, p_value, reason, signed, verdict_sentence, verdict_word, with_ci,
@@ -223,25 +225,64 @@ fn fixed_offset(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) 
     truth_line(out, outcome);
 }
 
+/// True errors of both pipelines (p95) as a small table: by range bin, within the contact
+/// range (where the tolerance applies) and over the whole session.
 fn truth_line(out: &mut String, outcome: &AuditOutcome) {
     let Some(truth) = &outcome.truth else {
         return;
     };
-    let d = &truth.dual_error_mm;
-    let mut line = format!(
-        "  against truth: dual-object error p95 {} mm (max {})",
-        fixed(d.p95, 1),
-        fixed(d.max, 1)
-    );
-    if let Some(f) = &truth.fixed_error_mm {
-        line.push_str(&format!(
-            ", fixed-offset p95 {} mm (max {})",
-            fixed(f.p95, 1),
-            fixed(f.max, 1)
-        ));
+    let p95 = |e: Option<&ErrorStats>| e.map_or("-".into(), |e| fixed(e.p95, 1));
+    let mut rows = vec![
+        vec!["true error p95, mm".to_string()],
+        vec!["  dual-object".to_string()],
+        vec!["  fixed-offset".to_string()],
+    ];
+    let mut column =
+        |head: String, dual: Option<&ErrorStats>, fixed_offset: Option<&ErrorStats>| {
+            rows[0].push(head);
+            rows[1].push(p95(dual));
+            rows[2].push(p95(fixed_offset));
+        };
+    if truth.by_range.len() > 1 {
+        for bin in &truth.by_range {
+            column(
+                range_head(bin),
+                bin.dual_error_mm.as_ref(),
+                bin.fixed_error_mm.as_ref(),
+            );
+        }
     }
-    out.push_str(&line);
-    out.push('\n');
+    let every_frame = truth
+        .dual_within_contact_mm
+        .is_some_and(|e| e.frames == truth.dual_error_mm.frames);
+    let within = format!("within {} m", fixed(truth.contact_range_m, 1));
+    if every_frame {
+        column(
+            format!("{within} (all)"),
+            Some(&truth.dual_error_mm),
+            truth.fixed_error_mm.as_ref(),
+        );
+    } else {
+        column(
+            within,
+            truth.dual_within_contact_mm.as_ref(),
+            truth.fixed_within_contact_mm.as_ref(),
+        );
+        column(
+            "all ranges".into(),
+            Some(&truth.dual_error_mm),
+            truth.fixed_error_mm.as_ref(),
+        );
+    }
+    table(out, &rows, 1);
+}
+
+fn range_head(bin: &TruthRangeBin) -> String {
+    if bin.range_max_m.is_finite() {
+        format!("{}-{} m", bin.range_min_m, bin.range_max_m)
+    } else {
+        format!("{}+ m", bin.range_min_m)
+    }
 }
 
 fn data_quality(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) {
