@@ -146,3 +146,15 @@ fn lines_fit_a_hundred_columns() {
         assert!(line.chars().count() <= 100, "too long: {line}");
     }
 }
+
+#[test]
+fn a_narrow_sigma_interval_keeps_its_ends_apart() {
+    let mut outcome = report_demo::shifted_outcome();
+    outcome.pixel_sigma.estimated = Some(0.5998);
+    outcome.pixel_sigma.estimated_ci95 = Some([0.5981, 0.6016]);
+    let text = summary(&outcome, TerminalStyle::PLAIN);
+    assert!(
+        text.contains("estimated 0.600 px (95%: 0.598-0.602)"),
+        "{text}"
+    );
+}

@@ -6,7 +6,7 @@ use crate::commands::audit::{
     AuditOutcome, ChangePoint, ErrorStats, RangeBin, Segment, TruthRangeBin,
 };
 
-use super::format::{fixed, p_value, reason, signed, with_ci};
+use super::format::{decimals_to_tell_apart, fixed, p_value, reason, signed, with_ci};
 use super::html::{facts, figure, table};
 use super::svg::escape;
 
@@ -206,9 +206,11 @@ pub(super) fn fixed_offset(outcome: &AuditOutcome, plot: &str) -> String {
     out.push_str(&truth(outcome));
     out.push_str(&figure(
         plot,
-        "Error of the probe-to-drogue vector against range and time: the fixed-offset error \
-         (dots), and with truth the true errors of the fixed-offset (crosses) and dual-object \
-         (triangles) pipelines; the dashed line is the tolerance.",
+        "Error of the probe-to-drogue vector on a logarithmic axis, against range and against \
+         time (frames within the contact range): the fixed-offset error estimated from each \
+         segment's mount (dots) and, with truth, both pipelines' errors against truth \
+         (crosses: fixed-offset, triangles: dual-object). The dashed line is the tolerance, \
+         which applies within the contact range; ranges beyond it are shaded.",
     ));
     out.push_str("</section>\n");
     out
@@ -229,7 +231,10 @@ fn truth(outcome: &AuditOutcome) -> String {
         return String::new();
     };
     let within = format!("within {} m", fixed(truth.contact_range_m, 1));
-    let mut rows = Vec::new();
+    // When every measured range lies within the contact range, one row per pipeline says so.
+    let every_frame = truth
+        .dual_within_contact_mm
+        .is_some_and(|e| e.frames == truth.dual_error_mm.frames);
     let pipelines = [
         (
             "dual-object (both poses solved)",
@@ -242,12 +247,15 @@ fn truth(outcome: &AuditOutcome) -> String {
             truth.fixed_error_mm.as_ref(),
         ),
     ];
+    let mut rows = Vec::new();
     for (name, near, all) in pipelines {
-        if let Some(e) = near {
-            rows.push(error_stats_row(name, &within, e));
-        }
-        if let Some(e) = all {
-            rows.push(error_stats_row(name, "all ranges", e));
+        match (every_frame, near, all) {
+            (true, _, Some(e)) => rows.push(error_stats_row(name, &format!("all ({within})"), e)),
+            (false, near, all) => {
+                rows.extend(near.map(|e| error_stats_row(name, &within, e)));
+                rows.extend(all.map(|e| error_stats_row(name, "all ranges", e)));
+            }
+            (true, _, None) => {}
         }
     }
     let mut out = String::from("<h3>Against truth</h3>\n");
@@ -267,17 +275,20 @@ fn truth(outcome: &AuditOutcome) -> String {
     out.push_str(&table(&head, &rows, 2));
     if !truth.by_range.is_empty() {
         out.push_str("<h4>True error by range</h4>\n");
+        let groups = "<tr><th></th><th class=\"group\" colspan=\"3\">dual-object</th>\
+                      <th class=\"group\" colspan=\"3\">fixed-offset</th></tr>";
         let head = [
             "range (m)",
-            "dual-object frames",
-            "dual-object median mm",
-            "dual-object p95 mm",
-            "fixed-offset frames",
-            "fixed-offset median mm",
-            "fixed-offset p95 mm",
+            "frames",
+            "median mm",
+            "p95 mm",
+            "frames",
+            "median mm",
+            "p95 mm",
         ];
         let rows: Vec<Vec<String>> = truth.by_range.iter().map(truth_range_row).collect();
-        out.push_str(&table(&head, &rows, 1));
+        let grouped = table(&head, &rows, 1).replacen("<thead>", &format!("<thead>{groups}"), 1);
+        out.push_str(&grouped);
     }
     out
 }
@@ -394,8 +405,15 @@ fn sigma_text(outcome: &AuditOutcome) -> String {
     match s.estimated {
         None => format!("{stated}; not estimated (no redundant keypoints)"),
         Some(est) => {
+            let decimals = s
+                .estimated_ci95
+                .map_or(2, |[lo, hi]| decimals_to_tell_apart(lo, hi, 2, 4));
             let ci = s.estimated_ci95.map_or(String::new(), |[lo, hi]| {
-                format!(" (95% interval {} to {})", fixed(lo, 2), fixed(hi, 2))
+                format!(
+                    " (95% interval {} to {})",
+                    fixed(lo, decimals),
+                    fixed(hi, decimals)
+                )
             });
             let verdict = if s.consistent {
                 "consistent with the stated value"
@@ -404,7 +422,7 @@ fn sigma_text(outcome: &AuditOutcome) -> String {
             };
             format!(
                 "{stated}; estimated {} px{ci} from {} degrees of freedom: {verdict}",
-                fixed(est, 2),
+                fixed(est, decimals),
                 s.dof
             )
         }

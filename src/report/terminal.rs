@@ -9,7 +9,8 @@ use crate::commands::audit::{
 };
 
 use super::format::{
-    fixed, gate_word, p_value, reason, signed, verdict_sentence, verdict_word, with_ci,
+    decimals_to_tell_apart, fixed, gate_word, p_value, reason, signed, verdict_sentence,
+    verdict_word, with_ci,
 };
 use super::style::{TerminalStyle, Tone};
 
@@ -341,8 +342,11 @@ fn sigma_text(outcome: &AuditOutcome, style: TerminalStyle) -> String {
     let Some(estimated) = s.estimated else {
         return format!("{stated}, not estimated (no redundant keypoints)");
     };
+    let decimals = s
+        .estimated_ci95
+        .map_or(2, |[lo, hi]| decimals_to_tell_apart(lo, hi, 2, 4));
     let ci = s.estimated_ci95.map_or(String::new(), |[lo, hi]| {
-        format!(" (95%: {}-{})", fixed(lo, 2), fixed(hi, 2))
+        format!(" (95%: {}-{})", fixed(lo, decimals), fixed(hi, decimals))
     });
     let agreement = if s.consistent {
         "consistent".to_string()
@@ -351,7 +355,7 @@ fn sigma_text(outcome: &AuditOutcome, style: TerminalStyle) -> String {
     };
     format!(
         "{stated}, estimated {} px{ci}: {agreement}",
-        fixed(estimated, 2)
+        fixed(estimated, decimals)
     )
 }
 
