@@ -433,3 +433,36 @@ fn error_plot_is_logarithmic_and_bounds_the_tolerance_to_the_contact_range() {
         );
     }
 }
+
+#[test]
+fn step_sizes_growing_by_factors_get_a_logarithmic_axis() {
+    let sizes: [f64; 5] = [0.25, 0.5, 1.0, 2.0, 4.0];
+    let set = CurveSet {
+        title: "Detection probability (invented demo curve)".into(),
+        x_label: "step size, mm".into(),
+        y_label: "detection probability".into(),
+        curves: vec![Curve {
+            label: "x".into(),
+            points: sizes.iter().map(|&s| (s, (s / 2.0).min(1.0))).collect(),
+        }],
+    };
+    let svg = detection_probability_svg(&set);
+    let doc = parse(&svg);
+    // x tick labels are centred under the axis; on a log axis 0.5 -> 1 and 1 -> 2 are equal.
+    let tick_x = |label: &str| {
+        doc.descendants()
+            .find(|n| n.text() == Some(label) && n.attribute("text-anchor") == Some("middle"))
+            .unwrap_or_else(|| panic!("no x tick {label}"))
+            .attribute("x")
+            .unwrap()
+            .parse::<f64>()
+            .unwrap()
+    };
+    let (half, one, two) = (tick_x("0.5"), tick_x("1"), tick_x("2"));
+    assert!(one - half > 50.0, "ticks {half} {one} {two}");
+    assert!(
+        ((one - half) - (two - one)).abs() < 0.5,
+        "ticks {half} {one} {two}"
+    );
+    assert_text_laid_out("log curves", &svg);
+}

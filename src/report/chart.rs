@@ -239,6 +239,7 @@ pub struct Panel {
     pub title: String,
     pub x_label: String,
     pub y_label: String,
+    pub x_log: bool,
     pub y_log: bool,
     /// Fixed value spans; `None` takes the smallest and largest value drawn, padded.
     pub x_span: Option<Span>,
@@ -366,7 +367,13 @@ fn panel_scales(panel: &Panel, area: (f64, f64, f64, f64)) -> (Scale, Scale) {
     let xs = panel.layers.iter().flat_map(Layer::x_values);
     let x_span = panel
         .x_span
-        .or_else(|| Span::of(xs).map(|s| s.padded(0.01)))
+        .or_else(|| {
+            if panel.x_log {
+                auto_y_span(xs, true)
+            } else {
+                Span::of(xs).map(|s| s.padded(0.01))
+            }
+        })
         .unwrap_or(Span { lo: 0.0, hi: 1.0 });
     let ys = panel.layers.iter().flat_map(Layer::y_values);
     let y_span = panel.y_span.or_else(|| auto_y_span(ys, panel.y_log));
@@ -379,7 +386,7 @@ fn panel_scales(panel: &Panel, area: (f64, f64, f64, f64)) -> (Scale, Scale) {
         span: x_span,
         px_lo: area.0,
         px_hi: area.0 + area.2,
-        log: false,
+        log: panel.x_log,
     };
     let y = Scale {
         span: y_span,
