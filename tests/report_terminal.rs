@@ -40,7 +40,8 @@ Change points (shift from the segment before, \u{b1} 95%)
   frame 1800 (95%: 1796-1803), t = 60.00 s
     translation  x +4.20\u{b1}0.31  y -1.50\u{b1}0.28  z +0.80\u{b1}0.55 mm
     rotation     yaw +0.180\u{b1}0.012  pitch -0.060\u{b1}0.010  roll +0.020\u{b1}0.015 deg
-  online alarm (CUSUM) at frame 1812 (t = 60.40 s), 12 frames after the change point
+  online alarm at frame 1812 (t = 60.40 s), 12 frames after the change point
+    detector: CUSUM
 
 Segments (mount deviation from the nominal)
   #  frames     solved   x mm   y mm   z mm  yaw deg  pitch deg  roll deg  fixed err p95 mm

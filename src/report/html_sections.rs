@@ -54,10 +54,10 @@ pub(super) fn change_points(outcome: &AuditOutcome) -> String {
             format!(", {d} frames after the first change point")
         });
         out.push_str(&paragraph(&format!(
-            "A real-time detector ({}) would have alarmed at frame {} (t = {} s){delay}.",
-            alarm.detector,
+            "A real-time detector would have alarmed at frame {} (t = {} s){delay}. Detector: {}.",
             alarm.frame,
-            fixed(alarm.time_s, 2)
+            fixed(alarm.time_s, 2),
+            alarm.detector
         )));
     }
     out.push_str("</section>\n");

@@ -126,10 +126,10 @@ fn change_points(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle)
             None => String::new(),
         };
         out.push_str(&format!(
-            "  online alarm ({}) at frame {} (t = {} s){delay}\n",
-            alarm.detector,
+            "  online alarm at frame {} (t = {} s){delay}\n    detector: {}\n",
             alarm.frame,
-            fixed(alarm.time_s, 2)
+            fixed(alarm.time_s, 2),
+            alarm.detector
         ));
     }
 }
