@@ -159,3 +159,32 @@ fn a_narrow_sigma_interval_keeps_its_ends_apart() {
         "{text}"
     );
 }
+
+#[test]
+fn long_reasons_and_advice_wrap_within_a_hundred_columns() {
+    let mut outcome = report_demo::shifted_outcome();
+    outcome.gate_reasons = vec![
+        "frames 3600 to 8999 sit 4.43 mm and 0.349 deg from the nominal mount (tolerance 5 mm, \
+         0.25 deg), which is more than the policy allows for a mount in service"
+            .into(),
+    ];
+    outcome.warnings[0].advice = "detections err alike frame to frame or the mount vibrates; \
+        the tests allow for it, but intervals widen, so record a longer session to narrow them"
+        .into();
+    let text = summary(&outcome, TerminalStyle::PLAIN);
+    for line in text.lines() {
+        assert!(line.chars().count() <= 100, "too long: {line}");
+    }
+    assert!(
+        text.contains("  fails: frames 3600 to 8999 sit 4.43 mm")
+            && text.contains("\n         deg), which is more"),
+        "continuation lines hang under the text:\n{text}"
+    );
+    let coloured = summary(&outcome, TerminalStyle { color: true });
+    assert!(coloured.contains('\u{1b}'));
+    assert_eq!(
+        strip_ansi(&coloured),
+        text,
+        "colour only adds styling when wrapped"
+    );
+}

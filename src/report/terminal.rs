@@ -51,6 +51,36 @@ fn heading(out: &mut String, text: &str, style: TerminalStyle) {
     out.push('\n');
 }
 
+/// Lines of the summary stay within this many columns.
+const COLUMNS: usize = 100;
+
+/// `lead` then `text`, broken between words into lines of at most `COLUMNS` columns, the
+/// continuation lines indented by `indent` spaces; each line ends with a newline. A single word
+/// longer than a line is left whole.
+fn wrapped(lead: &str, text: &str, indent: usize) -> String {
+    let mut out = String::from(lead);
+    let mut used = lead.chars().count();
+    let mut fresh = true;
+    for word in text.split_whitespace() {
+        let width = word.chars().count();
+        if !fresh && used + 1 + width > COLUMNS {
+            out.push('\n');
+            out.push_str(&" ".repeat(indent));
+            used = indent;
+            fresh = true;
+        }
+        if !fresh {
+            out.push(' ');
+            used += 1;
+        }
+        out.push_str(word);
+        used += width;
+        fresh = false;
+    }
+    out.push('\n');
+    out
+}
+
 fn headline(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) {
     let verdict = style.paint(verdict_word(outcome.verdict), verdict_tone(outcome.verdict));
     let gate = style.paint(
@@ -58,9 +88,10 @@ fn headline(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) {
         gate_tone(outcome.gate),
     );
     out.push_str(&format!("{verdict} \u{b7} {gate}\n"));
-    out.push_str(&format!("  {}\n", verdict_sentence(outcome)));
+    out.push_str(&wrapped("  ", &verdict_sentence(outcome), 2));
     for why in &outcome.gate_reasons {
-        out.push_str(&format!("  {} {why}\n", style.paint("fails:", Tone::Bad)));
+        let lines = wrapped("  fails: ", why, 9);
+        out.push_str(&lines.replacen("fails:", &style.paint("fails:", Tone::Bad), 1));
     }
     let f = &outcome.frames;
     let span = match (outcome.rows.first(), outcome.rows.last()) {
@@ -366,7 +397,7 @@ fn warnings(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) {
     heading(out, "Warnings", style);
     for warning in &outcome.warnings {
         let mark = style.paint("!", Tone::Caution);
-        out.push_str(&format!("  {mark} {}\n", warning.message));
-        out.push_str(&format!("    advice: {}\n", warning.advice));
+        out.push_str(&wrapped("  ! ", &warning.message, 4).replacen('!', &mark, 1));
+        out.push_str(&wrapped("    advice: ", &warning.advice, 12));
     }
 }
