@@ -111,6 +111,13 @@ fn a_clean_session_reprojects_within_two_pixels() {
             .any(|l| l.starts_with("probe  reprojection RMS")),
         "{lines:?}"
     );
+    // The per-frame vector error comes from this frame's mount, not from truth: it says so.
+    assert!(
+        lines
+            .iter()
+            .any(|l| l.starts_with("fixed-offset vector error, this frame: ")),
+        "{lines:?}"
+    );
 }
 
 /// `T_CB` of a mount: `(R_BC, p_BC)⁻¹`, built here from DESIGN section 2 directly.

@@ -69,6 +69,40 @@ fn sections_come_in_order_with_their_plots() {
     assert!(page.contains("Brown-Conrady k1 -0.12"), "camera inputs");
 }
 
+/// The cells of the table row whose first cells are `lead`, as text.
+fn row_cells(page: &str, lead: &[&str]) -> Vec<String> {
+    let wanted: String = lead.iter().map(|c| format!("<td>{c}</td>")).collect();
+    let start = position(page, &format!("<tr>{wanted}"));
+    let row = &page[start..start + page[start..].find("</tr>").unwrap()];
+    row.split("<td")
+        .skip(1)
+        .map(|c| c[c.find('>').unwrap() + 1..c.find("</td>").unwrap()].to_string())
+        .collect()
+}
+
+#[test]
+fn truth_is_given_within_the_contact_range_and_by_range() {
+    let page = html(&report_demo::shifted_outcome());
+    let truth = position(&page, "<h3>Against truth</h3>");
+    assert!(truth < position(&page, "Probe-to-drogue vector error"));
+    // Within the policy's contact range (15 m) as well as over the whole session.
+    let near = row_cells(&page, &["dual-object (both poses solved)", "within 15.0 m"]);
+    assert_eq!(near[2..], ["1015", "0.7", "1.6", "2.2"]);
+    let all = row_cells(&page, &["fixed-offset (nominal mount)", "all ranges"]);
+    assert_eq!(all[2..], ["2920", "9.0", "37.8", "44.0"]);
+    // And range by range, both pipelines side by side.
+    let by_range = position(&page, "<h4>True error by range</h4>");
+    assert!(truth < by_range);
+    let fixed_offset_bin = row_cells(&page, &["0.0 to 5.0"]);
+    assert_eq!(
+        fixed_offset_bin.len(),
+        5,
+        "the fixed-offset table comes first"
+    );
+    let cells = row_cells(&page[by_range..], &["0.0 to 5.0"]);
+    assert_eq!(cells[1..], ["240", "0.4", "0.9", "240", "34.0", "39.9"]);
+}
+
 #[test]
 fn page_is_self_contained() {
     for outcome in [

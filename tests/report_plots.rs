@@ -150,10 +150,10 @@ fn fixed_offset_plot_shows_truth_series_and_tolerance() {
     let doc = parse(&svg);
     let names = texts(&doc);
     for label in [
-        "fixed-offset error (segment mount)",
-        "true fixed-offset error",
-        "true dual-object error",
-        "tolerance 30.0 mm",
+        "fixed-offset error, estimated (segment mount)",
+        "fixed-offset error against truth",
+        "dual-object error against truth",
+        "tolerance 30.0 mm (applies within 15.0 m)",
     ] {
         assert!(names.iter().any(|t| t == label), "missing legend {label}");
     }
@@ -287,4 +287,182 @@ fn values_that_are_not_finite_are_left_out() {
             "a non-finite value was drawn"
         );
     }
+}
+
+/// A text element's box as (left, top, right, bottom), px, from its position, size, anchor and
+/// rotation, with the same rough glyph width the renderer lays out with (0.56 em a character,
+/// which DejaVu Sans at these sizes stays under for digits and lower-case text).
+fn text_box(node: &roxmltree::Node) -> (f64, f64, f64, f64) {
+    let num = |a: &str| node.attribute(a).unwrap().parse::<f64>().unwrap();
+    let (x, y, size) = (num("x"), num("y"), num("font-size"));
+    let width = node.text().unwrap_or("").chars().count() as f64 * size * 0.56;
+    let (before, after) = match node.attribute("text-anchor") {
+        Some("end") => (width, 0.0),
+        Some("middle") => (width / 2.0, width / 2.0),
+        _ => (0.0, width),
+    };
+    if node.attribute("transform").is_some() {
+        // Rotated a quarter turn anticlockwise about (x, y): the text runs upwards.
+        (x - size * 0.8, y - after, x + size * 0.2, y + before)
+    } else {
+        (x - before, y - size * 0.8, x + after, y + size * 0.2)
+    }
+}
+
+fn view_box(doc: &roxmltree::Document) -> (f64, f64) {
+    let v: Vec<f64> = doc
+        .root_element()
+        .attribute("viewBox")
+        .unwrap()
+        .split(' ')
+        .map(|s| s.parse().unwrap())
+        .collect();
+    (v[2], v[3])
+}
+
+/// Every text inside the viewBox and no two texts overlapping.
+fn assert_text_laid_out(name: &str, svg: &str) {
+    let doc = parse(svg);
+    let (width, height) = view_box(&doc);
+    let boxes: Vec<(String, (f64, f64, f64, f64))> = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("text"))
+        .map(|n| (n.text().unwrap_or("").to_string(), text_box(&n)))
+        .collect();
+    for (text, b) in &boxes {
+        assert!(
+            b.0 >= 0.0 && b.1 >= 0.0 && b.2 <= width && b.3 <= height,
+            "{name}: '{text}' at {b:?} leaves the {width} x {height} view"
+        );
+    }
+    for (i, (ta, a)) in boxes.iter().enumerate() {
+        for (tb, b) in &boxes[i + 1..] {
+            let overlap = a.0 < b.2 && b.0 < a.2 && a.1 < b.3 && b.1 < a.3;
+            assert!(!overlap, "{name}: '{ta}' {a:?} overlaps '{tb}' {b:?}");
+        }
+    }
+}
+
+#[test]
+fn plot_text_stays_in_view_and_never_overlaps() {
+    let mut wild = report_demo::shifted_outcome();
+    for (i, row) in wild.rows.iter_mut().enumerate().step_by(700) {
+        if let Some(d) = row.deviation.as_mut() {
+            d[i % 6] += 250.0;
+        }
+    }
+    for outcome in [
+        report_demo::shifted_outcome(),
+        report_demo::stable_outcome(),
+        wild,
+    ] {
+        let plots = AuditPlots::render(&outcome);
+        assert_text_laid_out("deviation", &plots.deviation);
+        assert_text_laid_out("d2", &plots.d2);
+        assert_text_laid_out("fixed offset", &plots.fixed_offset);
+        assert_text_laid_out("fit", &plots.fit);
+    }
+    assert_text_laid_out("curves", &detection_probability_svg(&demo_curves()));
+    assert_text_laid_out("delays", &detection_delay_svg(&demo_curves()));
+}
+
+/// The y tick values of the first deviation panel (texts right-aligned left of the frame,
+/// above the second row's title).
+fn first_panel_y_ticks(doc: &roxmltree::Document) -> Vec<f64> {
+    let y = |n: &roxmltree::Node| n.attribute("y").unwrap().parse::<f64>().unwrap();
+    let second_row = doc
+        .descendants()
+        .find(|n| n.text() == Some("y (right), mm"))
+        .map(|n| y(&n))
+        .unwrap();
+    doc.descendants()
+        .filter(|n| n.has_tag_name("text") && n.attribute("text-anchor") == Some("end"))
+        .filter(|n| n.attribute("x").unwrap().parse::<f64>().unwrap() < 100.0)
+        .filter(|n| y(n) < second_row)
+        .filter_map(|n| n.text()?.replace('\u{2212}', "-").parse().ok())
+        .collect()
+}
+
+#[test]
+fn a_few_wild_frames_do_not_stretch_the_deviation_axis() {
+    let clean = deviation_svg(&report_demo::shifted_outcome());
+    let clean_ticks = first_panel_y_ticks(&parse(&clean));
+    let mut outcome = report_demo::shifted_outcome();
+    // Three frames thrown 300 mm forward (a mis-detected keypoint does this).
+    for f in [100, 1500, 2500] {
+        outcome.rows[f].deviation.as_mut().unwrap()[0] = 300.0;
+    }
+    let svg = deviation_svg(&outcome);
+    let doc = parse(&svg);
+    let ticks = first_panel_y_ticks(&doc);
+    let top = ticks.iter().cloned().fold(f64::MIN, f64::max);
+    let clean_top = clean_ticks.iter().cloned().fold(f64::MIN, f64::max);
+    assert!(
+        top <= clean_top + 1e-9,
+        "axis reaches {top} (without the wild frames {clean_top})"
+    );
+    let names = texts(&doc);
+    assert!(
+        names.iter().any(|t| t == "3 frames beyond the axis"),
+        "{names:?}"
+    );
+    assert!(names
+        .iter()
+        .any(|t| t == "frame beyond the axis (on its edge)"));
+    // Drawn as triangles pointing up on the frame's top edge.
+    assert!(svg.contains("l3 5.2h-6z"));
+}
+
+#[test]
+fn error_plot_is_logarithmic_and_bounds_the_tolerance_to_the_contact_range() {
+    let svg = fixed_offset_svg(&report_demo::shifted_outcome());
+    let doc = parse(&svg);
+    let names = texts(&doc);
+    assert!(names
+        .iter()
+        .any(|t| t == "against time, ranges up to 15.0 m"));
+    assert!(names
+        .iter()
+        .any(|t| t == "beyond contact range: no tolerance"));
+    assert!(names.iter().any(|t| t == "contact range"));
+    // Decades on the error axis.
+    for decade in ["1", "10", "100"] {
+        assert!(
+            names.iter().any(|t| t == decade),
+            "missing tick {decade}: {names:?}"
+        );
+    }
+}
+
+#[test]
+fn step_sizes_growing_by_factors_get_a_logarithmic_axis() {
+    let sizes: [f64; 5] = [0.25, 0.5, 1.0, 2.0, 4.0];
+    let set = CurveSet {
+        title: "Detection probability (invented demo curve)".into(),
+        x_label: "step size, mm".into(),
+        y_label: "detection probability".into(),
+        curves: vec![Curve {
+            label: "x".into(),
+            points: sizes.iter().map(|&s| (s, (s / 2.0).min(1.0))).collect(),
+        }],
+    };
+    let svg = detection_probability_svg(&set);
+    let doc = parse(&svg);
+    // x tick labels are centred under the axis; on a log axis 0.5 -> 1 and 1 -> 2 are equal.
+    let tick_x = |label: &str| {
+        doc.descendants()
+            .find(|n| n.text() == Some(label) && n.attribute("text-anchor") == Some("middle"))
+            .unwrap_or_else(|| panic!("no x tick {label}"))
+            .attribute("x")
+            .unwrap()
+            .parse::<f64>()
+            .unwrap()
+    };
+    let (half, one, two) = (tick_x("0.5"), tick_x("1"), tick_x("2"));
+    assert!(one - half > 50.0, "ticks {half} {one} {two}");
+    assert!(
+        ((one - half) - (two - one)).abs() < 0.5,
+        "ticks {half} {one} {two}"
+    );
+    assert_text_laid_out("log curves", &svg);
 }

@@ -40,7 +40,8 @@ Change points (shift from the segment before, \u{b1} 95%)
   frame 1800 (95%: 1796-1803), t = 60.00 s
     translation  x +4.20\u{b1}0.31  y -1.50\u{b1}0.28  z +0.80\u{b1}0.55 mm
     rotation     yaw +0.180\u{b1}0.012  pitch -0.060\u{b1}0.010  roll +0.020\u{b1}0.015 deg
-  online alarm (CUSUM) at frame 1812 (t = 60.40 s), 12 frames after the change point
+  online alarm at frame 1812 (t = 60.40 s), 12 frames after the change point
+    detector: CUSUM
 
 Segments (mount deviation from the nominal)
   #  frames     solved   x mm   y mm   z mm  yaw deg  pitch deg  roll deg  fixed err p95 mm
@@ -49,7 +50,9 @@ Segments (mount deviation from the nominal)
 
 Fixed-offset error (tolerance 30.0 mm within 15.0 m range)
   max 41.3 mm, 214 frames over tolerance, the first at frame 1807
-  against truth: dual-object error p95 2.6 mm (max 4.9), fixed-offset p95 37.8 mm (max 44.0)
+  true error p95, mm  0-5 m  5-10 m  10-15 m  15-40 m  within 15.0 m  all ranges
+    dual-object         0.9     1.5      2.1      3.1            1.6         2.6
+    fixed-offset       39.9    36.0     33.5     28.0           39.1        37.8
 
 Data quality
   frames       3000 read, 2950 solved (2920 with the drogue), 50 rejected
@@ -106,9 +109,82 @@ fn colour_only_adds_styling() {
 }
 
 #[test]
+fn truth_is_given_within_the_contact_range_and_by_range() {
+    let text = summary(&report_demo::shifted_outcome(), TerminalStyle::PLAIN);
+    let head = text
+        .lines()
+        .find(|l| l.starts_with("  true error p95, mm"))
+        .expect("a truth table");
+    let heads: Vec<&str> = head
+        .split("  ")
+        .map(str::trim)
+        .filter(|s| !s.is_empty())
+        .collect();
+    assert_eq!(
+        heads[1..],
+        [
+            "0-5 m",
+            "5-10 m",
+            "10-15 m",
+            "15-40 m",
+            "within 15.0 m",
+            "all ranges"
+        ]
+    );
+    // Every frame within the contact range: one column says so instead of two equal ones.
+    let mut outcome = report_demo::shifted_outcome();
+    let truth = outcome.truth.as_mut().unwrap();
+    truth.dual_within_contact_mm = Some(truth.dual_error_mm);
+    let text = summary(&outcome, TerminalStyle::PLAIN);
+    assert!(text.contains("within 15.0 m (all)"), "{text}");
+    assert!(!text.contains("all ranges"), "{text}");
+}
+
+#[test]
 fn lines_fit_a_hundred_columns() {
     let text = summary(&report_demo::shifted_outcome(), TerminalStyle::PLAIN);
     for line in text.lines() {
         assert!(line.chars().count() <= 100, "too long: {line}");
     }
+}
+
+#[test]
+fn a_narrow_sigma_interval_keeps_its_ends_apart() {
+    let mut outcome = report_demo::shifted_outcome();
+    outcome.pixel_sigma.estimated = Some(0.5998);
+    outcome.pixel_sigma.estimated_ci95 = Some([0.5981, 0.6016]);
+    let text = summary(&outcome, TerminalStyle::PLAIN);
+    assert!(
+        text.contains("estimated 0.600 px (95%: 0.598-0.602)"),
+        "{text}"
+    );
+}
+
+#[test]
+fn long_reasons_and_advice_wrap_within_a_hundred_columns() {
+    let mut outcome = report_demo::shifted_outcome();
+    outcome.gate_reasons = vec![
+        "frames 3600 to 8999 sit 4.43 mm and 0.349 deg from the nominal mount (tolerance 5 mm, \
+         0.25 deg), which is more than the policy allows for a mount in service"
+            .into(),
+    ];
+    outcome.warnings[0].advice = "detections err alike frame to frame or the mount vibrates; \
+        the tests allow for it, but intervals widen, so record a longer session to narrow them"
+        .into();
+    let text = summary(&outcome, TerminalStyle::PLAIN);
+    for line in text.lines() {
+        assert!(line.chars().count() <= 100, "too long: {line}");
+    }
+    assert!(
+        text.contains("  fails: frames 3600 to 8999 sit 4.43 mm")
+            && text.contains("\n         deg), which is more"),
+        "continuation lines hang under the text:\n{text}"
+    );
+    let coloured = summary(&outcome, TerminalStyle { color: true });
+    assert!(coloured.contains('\u{1b}'));
+    assert_eq!(
+        strip_ansi(&coloured),
+        text,
+        "colour only adds styling when wrapped"
+    );
 }

@@ -18,6 +18,7 @@ pub mod colors {
     pub const GREY: &str = "#6E6E6E";
     pub(crate) const GRID: &str = "#E4E4E4";
     pub(crate) const FRAME: &str = "#9A9A9A";
+    pub(crate) const SHADE: &str = "#F1F1F1";
 }
 
 /// Shape drawn at each point of a series.
@@ -26,6 +27,8 @@ pub enum Marker {
     Dot,
     Square,
     Triangle,
+    /// A triangle pointing down (off-scale values below the axis).
+    TriangleDown,
     Diamond,
     Cross,
 }
@@ -36,6 +39,7 @@ impl Marker {
         match self {
             Marker::Dot | Marker::Square => (0.0, 0.0),
             Marker::Triangle => (0.0, -3.4),
+            Marker::TriangleDown => (0.0, 3.4),
             Marker::Diamond => (0.0, -3.0),
             Marker::Cross => (-2.5, -2.5),
         }
@@ -47,6 +51,7 @@ impl Marker {
         match self {
             Marker::Dot | Marker::Square => ("h0", (0.0, 0.0)),
             Marker::Triangle => ("l3 5.2h-6z", (0.0, 0.0)),
+            Marker::TriangleDown => ("l3-5.2h-6z", (0.0, 0.0)),
             Marker::Diamond => ("l3 3-3 3-3-3z", (0.0, 0.0)),
             Marker::Cross => ("l5 5m0-5l-5 5", (0.0, 5.0)),
         }
@@ -56,7 +61,7 @@ impl Marker {
     pub(crate) fn cell_px(self) -> f64 {
         match self {
             Marker::Dot | Marker::Square => 3.0,
-            Marker::Triangle | Marker::Diamond | Marker::Cross => 4.5,
+            Marker::Triangle | Marker::TriangleDown | Marker::Diamond | Marker::Cross => 4.5,
         }
     }
 
@@ -91,7 +96,9 @@ impl Marker {
         match self {
             Marker::Dot => svg.stroked_path(data, &Stroke::solid(color, 3.4), true),
             Marker::Square => svg.stroked_path(data, &Stroke::solid(color, 3.0), false),
-            Marker::Triangle | Marker::Diamond => svg.filled_path(data, color, 0.75),
+            Marker::Triangle | Marker::TriangleDown | Marker::Diamond => {
+                svg.filled_path(data, color, 0.75)
+            }
             Marker::Cross => svg.stroked_path(data, &Stroke::solid(color, 1.4), false),
         }
     }
@@ -142,6 +149,12 @@ pub enum Layer {
         stroke: Stroke,
         label: Option<String>,
     },
+    /// A light grey stretch of x across the panel (`hi` may be infinite: to the right edge),
+    /// labelled inside its top left corner.
+    Shade {
+        x: (f64, f64),
+        label: Option<String>,
+    },
 }
 
 impl Layer {
@@ -153,6 +166,7 @@ impl Layer {
             Layer::Band { x, .. } => vec![x.0, x.1],
             Layer::HRule { .. } => Vec::new(),
             Layer::VRule { x, .. } => vec![*x],
+            Layer::Shade { x, .. } => vec![x.0],
         }
     }
 
@@ -163,7 +177,7 @@ impl Layer {
             }
             Layer::Band { y, half_width, .. } => vec![y - half_width, y + half_width],
             Layer::HRule { y, .. } => vec![*y],
-            Layer::VRule { .. } => Vec::new(),
+            Layer::VRule { .. } | Layer::Shade { .. } => Vec::new(),
         }
     }
 
@@ -176,6 +190,7 @@ impl Layer {
             } => [x.0, x.1, *y, *half_width].iter().all(|v| v.is_finite()),
             Layer::HRule { y, .. } => y.is_finite(),
             Layer::VRule { x, .. } => x.is_finite(),
+            Layer::Shade { x, .. } => x.0.is_finite() && !x.1.is_nan(),
         }
     }
 
@@ -183,7 +198,7 @@ impl Layer {
         match self {
             Layer::Points { points, .. } | Layer::Line { points, .. } => !points.is_empty(),
             Layer::Band { .. } => true,
-            Layer::HRule { .. } | Layer::VRule { .. } => false,
+            Layer::HRule { .. } | Layer::VRule { .. } | Layer::Shade { .. } => false,
         }
     }
 }
@@ -224,6 +239,7 @@ pub struct Panel {
     pub title: String,
     pub x_label: String,
     pub y_label: String,
+    pub x_log: bool,
     pub y_log: bool,
     /// Fixed value spans; `None` takes the smallest and largest value drawn, padded.
     pub x_span: Option<Span>,
@@ -231,6 +247,8 @@ pub struct Panel {
     pub layers: Vec<Layer>,
     /// Shown in the middle of the panel when it has no data.
     pub empty_note: String,
+    /// A short note right-aligned below the frame (e.g. how many values lie beyond the axis).
+    pub note: String,
 }
 
 /// A titled figure with a legend and a grid of panels.
@@ -349,7 +367,13 @@ fn panel_scales(panel: &Panel, area: (f64, f64, f64, f64)) -> (Scale, Scale) {
     let xs = panel.layers.iter().flat_map(Layer::x_values);
     let x_span = panel
         .x_span
-        .or_else(|| Span::of(xs).map(|s| s.padded(0.01)))
+        .or_else(|| {
+            if panel.x_log {
+                auto_y_span(xs, true)
+            } else {
+                Span::of(xs).map(|s| s.padded(0.01))
+            }
+        })
         .unwrap_or(Span { lo: 0.0, hi: 1.0 });
     let ys = panel.layers.iter().flat_map(Layer::y_values);
     let y_span = panel.y_span.or_else(|| auto_y_span(ys, panel.y_log));
@@ -362,7 +386,7 @@ fn panel_scales(panel: &Panel, area: (f64, f64, f64, f64)) -> (Scale, Scale) {
         span: x_span,
         px_lo: area.0,
         px_hi: area.0 + area.2,
-        log: false,
+        log: panel.x_log,
     };
     let y = Scale {
         span: y_span,
@@ -397,8 +421,9 @@ fn draw_panel(svg: &mut Svg, panel: &Panel, origin: (f64, f64), size: (f64, f64)
     if panel.layers.iter().any(Layer::has_data) {
         // Labels above the frame must not run into the panel title.
         let title_end = area.0 + text_width(&panel.title, 13.0) * 1.1 + 8.0;
+        draw_note(svg, &panel.note, area);
         for layer in &panel.layers {
-            draw_layer(svg, layer, (&x, &y), title_end);
+            draw_layer(svg, layer, (&x, &y), (title_end, area.0 + area.2));
         }
     } else {
         let note = TextStyle::plain(LABEL_SIZE, Anchor::Middle);
@@ -440,7 +465,19 @@ fn draw_axes(svg: &mut Svg, panel: &Panel, x: &Scale, y: &Scale, area: (f64, f64
     svg.text(at, &panel.y_label, &vertical);
 }
 
-fn draw_layer(svg: &mut Svg, layer: &Layer, (x, y): (&Scale, &Scale), title_end: f64) {
+/// The panel's note below the right end of the frame, on the line of the x axis label (which
+/// is centred and short, so the two never meet on a panel of a few hundred pixels).
+fn draw_note(svg: &mut Svg, note: &str, area: (f64, f64, f64, f64)) {
+    if note.is_empty() {
+        return;
+    }
+    let mut style = TextStyle::plain(TICK_SIZE, Anchor::End);
+    style.color = colors::GREY;
+    svg.text((area.0 + area.2, area.1 + area.3 + 34.0), note, &style);
+}
+
+/// Draws one layer; labels above the frame stay within `free` = (title end, note start), px.
+fn draw_layer(svg: &mut Svg, layer: &Layer, (x, y): (&Scale, &Scale), free: (f64, f64)) {
     if !layer.is_drawable() {
         return;
     }
@@ -450,6 +487,7 @@ fn draw_layer(svg: &mut Svg, layer: &Layer, (x, y): (&Scale, &Scale), title_end:
             color,
             marker,
         } => draw_markers(svg, points, *marker, color, x, y),
+        Layer::Shade { x: stretch, label } => draw_shade(svg, *stretch, label.as_deref(), (x, y)),
         Layer::Line {
             points,
             stroke,
@@ -486,23 +524,28 @@ fn draw_layer(svg: &mut Svg, layer: &Layer, (x, y): (&Scale, &Scale), title_end:
             let px = x.px(*v);
             svg.line((px, y.px_hi), (px, y.px_lo), stroke);
             if let Some(label) = label {
-                draw_rule_label(svg, label, px, (y.px_hi - 4.0, x.px_hi), title_end);
+                draw_rule_label(svg, label, px, y.px_hi - 4.0, free);
             }
         }
     }
 }
 
-/// The label of a vertical line, above the frame: right of the line, or left of it near the
-/// right edge; left out where it would cover the panel title.
-fn draw_rule_label(svg: &mut Svg, label: &str, px: f64, (top, right): (f64, f64), title_end: f64) {
+/// The label of a vertical line, above the frame: right of the line, or left of it when there
+/// is no room on the right; left out where it would cover the panel title or note (`free`
+/// is the stretch between them, px).
+fn draw_rule_label(svg: &mut Svg, label: &str, px: f64, top: f64, (left, right): (f64, f64)) {
     let width = text_width(label, TICK_SIZE);
-    let (at, anchor, left_end) = if px + 3.0 + width <= right {
-        (px + 3.0, Anchor::Start, px + 3.0)
+    let placement = if px + 3.0 + width <= right {
+        Some((px + 3.0, Anchor::Start, px + 3.0))
+    } else if px - 3.0 <= right {
+        Some((px - 3.0, Anchor::End, px - 3.0 - width))
     } else {
-        (px - 3.0, Anchor::End, px - 3.0 - width)
+        None
     };
-    if left_end >= title_end {
-        svg.text((at, top), label, &TextStyle::plain(TICK_SIZE, anchor));
+    if let Some((at, anchor, left_end)) = placement {
+        if left_end >= left {
+            svg.text((at, top), label, &TextStyle::plain(TICK_SIZE, anchor));
+        }
     }
 }
 
@@ -529,6 +572,26 @@ fn draw_band(
     svg.line((left, py), (right, py), stroke);
 }
 
+fn draw_shade(svg: &mut Svg, (lo, hi): (f64, f64), label: Option<&str>, (x, y): (&Scale, &Scale)) {
+    let (left, right) = (x.px(lo), x.px(hi.min(x.span.hi)));
+    if right - left < 1.0 {
+        return;
+    }
+    svg.rect(
+        (left, y.px_hi),
+        (right - left, y.px_lo - y.px_hi),
+        colors::SHADE,
+        None,
+    );
+    if let Some(label) = label {
+        if text_width(label, TICK_SIZE) + 8.0 <= right - left {
+            let mut style = TextStyle::plain(TICK_SIZE, Anchor::Start);
+            style.color = colors::GREY;
+            svg.text((left + 4.0, y.px_hi + 14.0), label, &style);
+        }
+    }
+}
+
 fn polyline(points: &[(f64, f64)], x: &Scale, y: &Scale) -> String {
     let mut data = String::with_capacity(points.len() * 12);
     for &(px, py) in points {
@@ -543,6 +606,8 @@ fn polyline(points: &[(f64, f64)], x: &Scale, y: &Scale) -> String {
     data
 }
 
+/// Marks at each point; points beyond the y axis are drawn as triangles on the frame's top
+/// or bottom edge (pointing outwards), so that they are seen without stretching the axis.
 fn draw_markers(
     svg: &mut Svg,
     points: &[(f64, f64)],
@@ -551,11 +616,21 @@ fn draw_markers(
     x: &Scale,
     y: &Scale,
 ) {
-    let centres = points
-        .iter()
-        .filter(|p| p.0.is_finite() && p.1.is_finite())
+    let finite = || points.iter().filter(|p| p.0.is_finite() && p.1.is_finite());
+    let (lo, hi) = (y.span.lo, y.span.hi);
+    let inside = finite()
+        .filter(|p| p.1 >= lo && p.1 <= hi)
         .map(|&(px, py)| (x.px(px), y.px(py)));
-    marker.draw(svg, &marker.path(centres), color);
+    marker.draw(svg, &marker.path(inside), color);
+    // The triangle's apex sits on the edge.
+    let above = finite()
+        .filter(|p| p.1 > hi)
+        .map(|&(px, _)| (x.px(px), y.px_hi + 3.4));
+    Marker::Triangle.draw(svg, &Marker::Triangle.path(above), color);
+    let below = finite()
+        .filter(|p| p.1 < lo)
+        .map(|&(px, _)| (x.px(px), y.px_lo - 3.4));
+    Marker::TriangleDown.draw(svg, &Marker::TriangleDown.path(below), color);
 }
 
 #[cfg(test)]

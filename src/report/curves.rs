@@ -91,6 +91,8 @@ fn render(set: &CurveSet, y_span: Option<Span>) -> String {
             marker,
         });
     }
+    let x_values = || set.curves.iter().flat_map(|c| c.points.iter().map(|p| p.0));
+    let x_log = log_x_span(x_values());
     Figure {
         title: set.title.clone(),
         width: CURVE_WIDTH,
@@ -100,6 +102,8 @@ fn render(set: &CurveSet, y_span: Option<Span>) -> String {
         panels: vec![Panel {
             x_label: set.x_label.clone(),
             y_label: set.y_label.clone(),
+            x_log: x_log.is_some(),
+            x_span: x_log,
             y_span,
             layers,
             empty_note: "no curves".into(),
@@ -107,6 +111,20 @@ fn render(set: &CurveSet, y_span: Option<Span>) -> String {
         }],
     }
     .render()
+}
+
+/// Sizes that grow by factors (0.25, 0.5, 1, 2, 4 mm) crowd into the left of a linear axis:
+/// when every x is positive and they span at least this ratio, the x axis is logarithmic.
+const LOG_X_RATIO: f64 = 8.0;
+
+/// The x span of a logarithmic axis (a little wider than the values), or `None` for linear.
+fn log_x_span(values: impl Iterator<Item = f64>) -> Option<Span> {
+    let mut all_positive = true;
+    let span = Span::of(values.inspect(|v| all_positive &= *v > 0.0))?;
+    (all_positive && span.hi >= LOG_X_RATIO * span.lo).then(|| Span {
+        lo: span.lo / 1.15,
+        hi: span.hi * 1.15,
+    })
 }
 
 /// A long curve thinned to the extremes of each pixel column (kept in x order).

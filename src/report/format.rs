@@ -16,6 +16,14 @@ pub fn fixed(value: f64, decimals: usize) -> String {
     }
 }
 
+/// Decimals (from `min` up to `max`) needed for `lo` and `hi` to read differently, so that a
+/// narrow interval is not printed as "0.60 to 0.60".
+pub fn decimals_to_tell_apart(lo: f64, hi: f64, min: usize, max: usize) -> usize {
+    (min..max)
+        .find(|&d| fixed(lo, d) != fixed(hi, d))
+        .unwrap_or(max)
+}
+
 /// `value` with an explicit sign (`+0.00` for zero).
 pub fn signed(value: f64, decimals: usize) -> String {
     let text = fixed(value, decimals);

@@ -2,9 +2,11 @@
 //! outcome (text escaped by the table and fact helpers) with its plot inlined.
 
 use crate::camera::Distortion;
-use crate::commands::audit::{AuditOutcome, ChangePoint, ErrorStats, RangeBin, Segment};
+use crate::commands::audit::{
+    AuditOutcome, ChangePoint, ErrorStats, RangeBin, Segment, TruthRangeBin,
+};
 
-use super::format::{fixed, p_value, reason, signed, with_ci};
+use super::format::{decimals_to_tell_apart, fixed, p_value, reason, signed, with_ci};
 use super::html::{facts, figure, table};
 use super::svg::escape;
 
@@ -52,10 +54,10 @@ pub(super) fn change_points(outcome: &AuditOutcome) -> String {
             format!(", {d} frames after the first change point")
         });
         out.push_str(&paragraph(&format!(
-            "A real-time detector ({}) would have alarmed at frame {} (t = {} s){delay}.",
-            alarm.detector,
+            "A real-time detector would have alarmed at frame {} (t = {} s){delay}. Detector: {}.",
             alarm.frame,
-            fixed(alarm.time_s, 2)
+            fixed(alarm.time_s, 2),
+            alarm.detector
         )));
     }
     out.push_str("</section>\n");
@@ -204,9 +206,11 @@ pub(super) fn fixed_offset(outcome: &AuditOutcome, plot: &str) -> String {
     out.push_str(&truth(outcome));
     out.push_str(&figure(
         plot,
-        "Error of the probe-to-drogue vector against range and time: the fixed-offset error \
-         (dots), and with truth the true errors of the fixed-offset (crosses) and dual-object \
-         (triangles) pipelines; the dashed line is the tolerance.",
+        "Error of the probe-to-drogue vector on a logarithmic axis, against range and against \
+         time (frames within the contact range): the fixed-offset error estimated from each \
+         segment's mount (dots) and, with truth, both pipelines' errors against truth \
+         (crosses: fixed-offset, triangles: dual-object). The dashed line is the tolerance, \
+         which applies within the contact range; ranges beyond it are shaded.",
     ));
     out.push_str("</section>\n");
     out
@@ -214,11 +218,7 @@ pub(super) fn fixed_offset(outcome: &AuditOutcome, plot: &str) -> String {
 
 fn range_row(bin: &RangeBin) -> Vec<String> {
     vec![
-        format!(
-            "{} to {}",
-            fixed(bin.range_min_m, 1),
-            fixed(bin.range_max_m, 1)
-        ),
+        range_text(bin.range_min_m, bin.range_max_m),
         bin.error_mm.frames.to_string(),
         fixed(bin.error_mm.median, 1),
         fixed(bin.error_mm.p95, 1),
@@ -230,20 +230,93 @@ fn truth(outcome: &AuditOutcome) -> String {
     let Some(truth) = &outcome.truth else {
         return String::new();
     };
-    let mut rows = vec![error_stats_row(
-        "dual-object (both poses solved)",
-        &truth.dual_error_mm,
-    )];
-    if let Some(f) = &truth.fixed_error_mm {
-        rows.push(error_stats_row("fixed-offset (nominal mount)", f));
+    let within = format!("within {} m", fixed(truth.contact_range_m, 1));
+    // When every measured range lies within the contact range, one row per pipeline says so.
+    let every_frame = truth
+        .dual_within_contact_mm
+        .is_some_and(|e| e.frames == truth.dual_error_mm.frames);
+    let pipelines = [
+        (
+            "dual-object (both poses solved)",
+            truth.dual_within_contact_mm.as_ref(),
+            Some(&truth.dual_error_mm),
+        ),
+        (
+            "fixed-offset (nominal mount)",
+            truth.fixed_within_contact_mm.as_ref(),
+            truth.fixed_error_mm.as_ref(),
+        ),
+    ];
+    let mut rows = Vec::new();
+    for (name, near, all) in pipelines {
+        match (every_frame, near, all) {
+            (true, _, Some(e)) => rows.push(error_stats_row(name, &format!("all ({within})"), e)),
+            (false, near, all) => {
+                rows.extend(near.map(|e| error_stats_row(name, &within, e)));
+                rows.extend(all.map(|e| error_stats_row(name, "all ranges", e)));
+            }
+            (true, _, None) => {}
+        }
     }
-    let head = ["pipeline", "frames", "median mm", "p95 mm", "max mm"];
-    format!("<h3>Against truth</h3>\n{}", table(&head, &rows, 1))
+    let mut out = String::from("<h3>Against truth</h3>\n");
+    out.push_str(&paragraph(&format!(
+        "The true error of each pipeline's probe-to-drogue vector. The tolerance applies {within} \
+         (contact); far from the drogue both pipelines err more because the drogue's own pose \
+         is less certain there, so compare them range by range."
+    )));
+    let head = [
+        "pipeline",
+        "ranges",
+        "frames",
+        "median mm",
+        "p95 mm",
+        "max mm",
+    ];
+    out.push_str(&table(&head, &rows, 2));
+    if !truth.by_range.is_empty() {
+        out.push_str("<h4>True error by range</h4>\n");
+        let groups = "<tr><th></th><th class=\"group\" colspan=\"3\">dual-object</th>\
+                      <th class=\"group\" colspan=\"3\">fixed-offset</th></tr>";
+        let head = [
+            "range (m)",
+            "frames",
+            "median mm",
+            "p95 mm",
+            "frames",
+            "median mm",
+            "p95 mm",
+        ];
+        let rows: Vec<Vec<String>> = truth.by_range.iter().map(truth_range_row).collect();
+        let grouped = table(&head, &rows, 1).replacen("<thead>", &format!("<thead>{groups}"), 1);
+        out.push_str(&grouped);
+    }
+    out
 }
 
-fn error_stats_row(name: &str, e: &ErrorStats) -> Vec<String> {
+fn truth_range_row(bin: &TruthRangeBin) -> Vec<String> {
+    let mut row = vec![range_text(bin.range_min_m, bin.range_max_m)];
+    for e in [&bin.dual_error_mm, &bin.fixed_error_mm] {
+        match e {
+            Some(e) => row.extend([e.frames.to_string(), fixed(e.median, 1), fixed(e.p95, 1)]),
+            None => row.extend(["0".into(), "n/a".into(), "n/a".into()]),
+        }
+    }
+    row
+}
+
+/// A range bin as text; the last bin is open-ended.
+fn range_text(lo_m: f64, hi_m: f64) -> String {
+    if hi_m.is_finite() {
+        format!("{} to {}", fixed(lo_m, 1), fixed(hi_m, 1))
+    } else {
+        format!("{} and beyond", fixed(lo_m, 1))
+    }
+}
+
+fn error_stats_row(name: &str, ranges: &str, e: &ErrorStats) -> Vec<String> {
     vec![
         name.into(),
+        ranges.into(),
         e.frames.to_string(),
         fixed(e.median, 1),
         fixed(e.p95, 1),
@@ -332,8 +405,15 @@ fn sigma_text(outcome: &AuditOutcome) -> String {
     match s.estimated {
         None => format!("{stated}; not estimated (no redundant keypoints)"),
         Some(est) => {
+            let decimals = s
+                .estimated_ci95
+                .map_or(2, |[lo, hi]| decimals_to_tell_apart(lo, hi, 2, 4));
             let ci = s.estimated_ci95.map_or(String::new(), |[lo, hi]| {
-                format!(" (95% interval {} to {})", fixed(lo, 2), fixed(hi, 2))
+                format!(
+                    " (95% interval {} to {})",
+                    fixed(lo, decimals),
+                    fixed(hi, decimals)
+                )
             });
             let verdict = if s.consistent {
                 "consistent with the stated value"
@@ -342,7 +422,7 @@ fn sigma_text(outcome: &AuditOutcome) -> String {
             };
             format!(
                 "{stated}; estimated {} px{ci} from {} degrees of freedom: {verdict}",
-                fixed(est, 2),
+                fixed(est, decimals),
                 s.dof
             )
         }

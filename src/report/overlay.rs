@@ -86,7 +86,7 @@ pub fn overlay_text_lines(outcome: &OverlayOutcome) -> Vec<String> {
                 px(f.rms_displacement_px)
             ));
             if let Some(mm) = f.vector_error_mm {
-                lines.push(format!("fixed-offset vector error: {mm:.1} mm"));
+                lines.push(format!("fixed-offset vector error, this frame: {mm:.1} mm"));
             }
         }
         FixedOffsetLayer::NoNominalMount => {

@@ -2,7 +2,9 @@
 //! consistency statistic d2, the fixed-offset error against range and time, and the reprojection
 //! fit. Long series are thinned to the extremes of each pixel column before drawing.
 
-use crate::commands::audit::{AuditOutcome, FrameRow};
+use std::collections::BTreeMap;
+
+use crate::commands::audit::{AuditOutcome, FixedOffset, FrameRow};
 
 use super::chart::{
     colors, plot_area_height, plot_area_width, Figure, Layer, LegendEntry, Marker, Panel,
@@ -64,6 +66,8 @@ fn time_span(rows: &[FrameRow]) -> Option<Span> {
 #[derive(Debug, Clone, Copy)]
 struct Canvas {
     x_span: Option<Span>,
+    /// The panel's fixed y span, when it has one (values beyond are drawn on its edge).
+    y_span: Option<Span>,
     size_px: (f64, f64),
     log_y: bool,
 }
@@ -76,9 +80,14 @@ impl Canvas {
         );
         Self {
             x_span,
+            y_span: None,
             size_px,
             log_y,
         }
+    }
+
+    fn with_y_span(self, y_span: Option<Span>) -> Self {
+        Self { y_span, ..self }
     }
 }
 
@@ -88,6 +97,8 @@ const MARK_BUDGET: usize = 6000;
 
 /// One series thinned to a mark per small cell of the data area (passes over the rows: the
 /// smallest and largest value first, then the cells, again with larger cells if over budget).
+/// With a fixed y span the cells cover that span, and the values beyond it (drawn on the edge)
+/// are thinned on their own so that they never hide a value inside.
 fn thinned(
     rows: &[FrameRow],
     canvas: Canvas,
@@ -97,20 +108,26 @@ fn thinned(
 ) -> Vec<(f64, f64)> {
     let pairs = || rows.iter().filter_map(|r| Some((x(r)?, y(r)?)));
     let ys = pairs().map(|p| p.1).filter(|v| !canvas.log_y || *v > 0.0);
-    let (Some(x_span), Some(y_span)) = (canvas.x_span, Span::of(ys)) else {
+    let (Some(x_span), Some(y_span)) = (canvas.x_span, canvas.y_span.or_else(|| Span::of(ys)))
+    else {
         return Vec::new();
     };
+    let inside = |v: f64| v >= y_span.lo && v <= y_span.hi;
     let mut cell_px = marker.cell_px();
     loop {
-        let mut raster = Raster::new(x_span, y_span, canvas.log_y, canvas.size_px, cell_px);
+        let grid = || Raster::new(x_span, y_span, canvas.log_y, canvas.size_px, cell_px);
+        let (mut within, mut beyond) = (grid(), grid());
         for (px, py) in pairs() {
+            let raster = if inside(py) { &mut within } else { &mut beyond };
             raster.push(px, py);
         }
-        if raster.len() <= MARK_BUDGET {
-            return raster.into_points();
+        if within.len() + beyond.len() <= MARK_BUDGET {
+            let mut points = within.into_points();
+            points.extend(beyond.into_points());
+            return points;
         }
         // Cells scale with the square root of the excess (the marks fill an area).
-        cell_px *= (raster.len() as f64 / MARK_BUDGET as f64).sqrt() * 1.05;
+        cell_px *= ((within.len() + beyond.len()) as f64 / MARK_BUDGET as f64).sqrt() * 1.05;
     }
 }
 
@@ -165,11 +182,18 @@ pub fn deviation_svg(outcome: &AuditOutcome) -> String {
     let canvas = Canvas::new(span, 2, DEVIATION_PANEL_HEIGHT, false);
     // Row-major grid: translations on the left, rotations on the right.
     let order = [0, 3, 1, 4, 2, 5];
-    let panels = order
+    let panels: Vec<Panel> = order
         .iter()
         .enumerate()
         .map(|(slot, &axis)| deviation_panel(outcome, axis, slot, canvas))
         .collect();
+    if panels.iter().any(|p| !p.note.is_empty()) {
+        legend.push(LegendEntry::marker(
+            "frame beyond the axis (on its edge)",
+            Marker::Triangle,
+            FRAME_POINTS,
+        ));
+    }
     Figure {
         title: format!("Mount deviation from the {reference}"),
         width: PLOT_WIDTH,
@@ -183,6 +207,8 @@ pub fn deviation_svg(outcome: &AuditOutcome) -> String {
 
 fn deviation_panel(outcome: &AuditOutcome, axis: usize, slot: usize, canvas: Canvas) -> Panel {
     let (name, unit) = DEVIATION_AXES[axis];
+    let y_span = deviation_y_span(outcome, axis);
+    let canvas = canvas.with_y_span(y_span);
     let points = thinned(
         &outcome.rows,
         canvas,
@@ -210,8 +236,23 @@ fn deviation_panel(outcome: &AuditOutcome, axis: usize, slot: usize, canvas: Can
         });
     }
     layers.extend(event_rules(outcome, slot < 2));
+    let beyond = y_span.map_or(0, |span| {
+        let outside = |v: &f64| *v < span.lo || *v > span.hi;
+        outcome
+            .rows
+            .iter()
+            .filter_map(|r| r.deviation.map(|d| d[axis]))
+            .filter(outside)
+            .count()
+    });
     Panel {
         title: format!("{name}, {unit}"),
+        y_span,
+        note: match beyond {
+            0 => String::new(),
+            1 => "1 frame beyond the axis".into(),
+            n => format!("{n} frames beyond the axis"),
+        },
         x_label: if slot >= 4 {
             TIME_LABEL.into()
         } else {
@@ -223,6 +264,42 @@ fn deviation_panel(outcome: &AuditOutcome, axis: usize, slot: usize, canvas: Can
         empty_note: "no solved frames".into(),
         ..Panel::default()
     }
+}
+
+/// How far outside a segment's quartiles a frame may lie and still set the axis, in
+/// interquartile ranges: Tukey's "far out" fence (Tukey 1977, Exploratory Data Analysis),
+/// about 4.7 standard deviations for Gaussian scatter, so ordinary noise is never cut.
+const FAR_OUT_IQR: f64 = 3.0;
+
+/// The y span of one deviation axis: each segment's estimate band and the frames within the
+/// far-out fences of their own segment, padded. A few wild frames (a mis-detected keypoint
+/// can throw one frame's mount by decimetres) would otherwise squash every estimate and band
+/// into one line; the frames beyond are drawn on the frame's edge and counted. Layout only.
+fn deviation_y_span(outcome: &AuditOutcome, axis: usize) -> Option<Span> {
+    let mut by_segment: BTreeMap<Option<u64>, Vec<f64>> = BTreeMap::new();
+    for r in &outcome.rows {
+        if let Some(v) = r.deviation.map(|d| d[axis]).filter(|v| v.is_finite()) {
+            by_segment.entry(r.segment).or_default().push(v);
+        }
+    }
+    let kept = by_segment.into_values().flat_map(|mut values| {
+        values.sort_by(f64::total_cmp);
+        let rank = |q: f64| values[((q * values.len() as f64) as usize).min(values.len() - 1)];
+        let (q1, q3) = (rank(0.25), rank(0.75));
+        let reach = FAR_OUT_IQR * (q3 - q1);
+        let (lo, hi) = (q1 - reach, q3 + reach);
+        values.into_iter().filter(move |v| *v >= lo && *v <= hi)
+    });
+    let bands = outcome.segments.iter().flat_map(|s| {
+        let dev = &s.mount_deviation;
+        let (value, half) = if axis < 3 {
+            (dev.translation_mm[axis], dev.translation_ci95_mm[axis])
+        } else {
+            (dev.rotation_deg[axis - 3], dev.rotation_ci95_deg[axis - 3])
+        };
+        [value - half, value + half]
+    });
+    Span::of(kept.chain(bands)).map(|s| s.padded(0.06))
 }
 
 /// (b) The per-frame consistency statistic d2 against time, with the frame threshold.
@@ -305,25 +382,28 @@ type ErrorSeries = (
 const ERROR_SERIES: [ErrorSeries; 3] = [
     (
         |r| r.fixed_error_mm,
-        "fixed-offset error (segment mount)",
+        "fixed-offset error, estimated (segment mount)",
         Marker::Dot,
         colors::BLUE,
     ),
     (
         |r| r.true_fixed_error_mm,
-        "true fixed-offset error",
+        "fixed-offset error against truth",
         Marker::Cross,
         colors::VERMILLION,
     ),
     (
         |r| r.true_dual_error_mm,
-        "true dual-object error",
+        "dual-object error against truth",
         Marker::Triangle,
         colors::GREEN,
     ),
 ];
 
-/// (c) Fixed-offset error against range and against time, with the policy tolerance.
+/// (c) Fixed-offset error against range and against time, with the policy tolerance, on a
+/// logarithmic axis (errors span from a fraction of a millimetre near contact to decimetres
+/// far out). The tolerance applies within the contact range only: the range panel shades the
+/// ranges beyond it and draws the tolerance up to it; the time panel shows the frames within it.
 pub fn fixed_offset_svg(outcome: &AuditOutcome) -> String {
     let rows = &outcome.rows;
     let present: Vec<&ErrorSeries> = ERROR_SERIES
@@ -334,40 +414,36 @@ pub fn fixed_offset_svg(outcome: &AuditOutcome) -> String {
         .iter()
         .map(|s| LegendEntry::marker(s.1, s.2, s.3))
         .collect();
-    let range_span = Span::of(rows.iter().filter_map(|r| r.range_m));
-    let by_range = Canvas::new(range_span, 2, ERROR_PANEL_HEIGHT, false);
-    let by_time = Canvas::new(time_span(rows), 2, ERROR_PANEL_HEIGHT, false);
+    let contact_m = outcome.fixed_offset.as_ref().map(|fo| fo.contact_range_m);
+    let near: Vec<FrameRow> = match contact_m {
+        Some(c) => rows
+            .iter()
+            .filter(|r| r.range_m.is_some_and(|m| m <= c))
+            .cloned()
+            .collect(),
+        None => rows.clone(),
+    };
+    let range_span = Span::of(rows.iter().filter_map(|r| r.range_m).chain(contact_m));
+    let by_range = Canvas::new(range_span, 2, ERROR_PANEL_HEIGHT, true);
+    let by_time = Canvas::new(time_span(rows), 2, ERROR_PANEL_HEIGHT, true);
     let by_range = error_layers(rows, &present, by_range, |r| r.range_m);
-    let by_time = error_layers(rows, &present, by_time, |r| Some(r.time_s));
+    let by_time = error_layers(&near, &present, by_time, |r| Some(r.time_s));
+    let time_title = match contact_m {
+        Some(c) => format!("against time, ranges up to {} m", fixed(c, 1)),
+        None => "against time".into(),
+    };
     let mut panels = [
         error_panel("against range", "probe-to-drogue range (m)", by_range),
-        error_panel("against time", TIME_LABEL, by_time),
+        error_panel(&time_title, TIME_LABEL, by_time),
     ];
+    panels[1].x_span = time_span(rows).map(|s| s.padded(0.01));
     if let Some(fo) = &outcome.fixed_offset {
-        let label = format!("tolerance {} mm", fixed(fo.tolerance_mm, 1));
-        for panel in &mut panels {
-            panel.layers.push(Layer::HRule {
-                y: fo.tolerance_mm,
-                stroke: LIMIT,
-                label: None,
-            });
-        }
-        legend.push(LegendEntry::line(&label, LIMIT));
-        let contact = Stroke::dashed(colors::GREY, 1.4, "2 3");
-        panels[0].layers.push(Layer::VRule {
-            x: fo.contact_range_m,
-            stroke: contact,
-            label: Some("contact range".into()),
-        });
-        legend.push(LegendEntry::line(
-            "contact range (tolerance applies below)",
-            contact,
-        ));
+        tolerance_layers(fo, &mut panels, &mut legend);
     }
     panels[1].layers.extend(event_rules(outcome, false));
     legend.extend(event_legend(outcome));
     Figure {
-        title: "Probe-to-drogue vector error".into(),
+        title: "Probe-to-drogue vector error (log scale)".into(),
         width: PLOT_WIDTH,
         columns: 2,
         panel_height: ERROR_PANEL_HEIGHT,
@@ -375,6 +451,44 @@ pub fn fixed_offset_svg(outcome: &AuditOutcome) -> String {
         panels: panels.into(),
     }
     .render()
+}
+
+/// The tolerance (up to the contact range in the range panel, across the time panel, which
+/// shows only frames within it) and the shaded ranges beyond the contact range.
+fn tolerance_layers(fo: &FixedOffset, panels: &mut [Panel; 2], legend: &mut Vec<LegendEntry>) {
+    let tolerance = |from: f64, to: f64| Layer::Line {
+        points: vec![(from, fo.tolerance_mm), (to, fo.tolerance_mm)],
+        stroke: LIMIT,
+        marker: None,
+    };
+    panels[0].layers.insert(
+        0,
+        Layer::Shade {
+            x: (fo.contact_range_m, f64::INFINITY),
+            label: Some("beyond contact range: no tolerance".into()),
+        },
+    );
+    panels[0].layers.push(tolerance(0.0, fo.contact_range_m));
+    panels[1].layers.push(Layer::HRule {
+        y: fo.tolerance_mm,
+        stroke: LIMIT,
+        label: None,
+    });
+    let contact = Stroke::dashed(colors::GREY, 1.4, "2 3");
+    panels[0].layers.push(Layer::VRule {
+        x: fo.contact_range_m,
+        stroke: contact,
+        label: Some("contact range".into()),
+    });
+    legend.push(LegendEntry::line(
+        &format!(
+            "tolerance {} mm (applies within {} m)",
+            fixed(fo.tolerance_mm, 1),
+            fixed(fo.contact_range_m, 1)
+        ),
+        LIMIT,
+    ));
+    legend.push(LegendEntry::line("contact range", contact));
 }
 
 fn error_layers(
@@ -400,6 +514,7 @@ fn error_panel(title: &str, x_label: &str, layers: Vec<Layer>) -> Panel {
         title: title.into(),
         x_label: x_label.into(),
         y_label: "error (mm)".into(),
+        y_log: true,
         layers,
         empty_note: "no nominal mount and no truth: nothing to compare".into(),
         ..Panel::default()

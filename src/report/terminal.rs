@@ -4,10 +4,13 @@
 
 use std::io::{self, Write};
 
-use crate::commands::audit::{AuditOutcome, ChangePoint, Gate, Segment, Verdict};
+use crate::commands::audit::{
+    AuditOutcome, ChangePoint, ErrorStats, Gate, Segment, TruthRangeBin, Verdict,
+};
 
 use super::format::{
-    fixed, gate_word, p_value, reason, signed, verdict_sentence, verdict_word, with_ci,
+    decimals_to_tell_apart, fixed, gate_word, p_value, reason, signed, verdict_sentence,
+    verdict_word, with_ci,
 };
 use super::style::{TerminalStyle, Tone};
 
@@ -48,6 +51,36 @@ fn heading(out: &mut String, text: &str, style: TerminalStyle) {
     out.push('\n');
 }
 
+/// Lines of the summary stay within this many columns.
+const COLUMNS: usize = 100;
+
+/// `lead` then `text`, broken between words into lines of at most `COLUMNS` columns, the
+/// continuation lines indented by `indent` spaces; each line ends with a newline. A single word
+/// longer than a line is left whole.
+fn wrapped(lead: &str, text: &str, indent: usize) -> String {
+    let mut out = String::from(lead);
+    let mut used = lead.chars().count();
+    let mut fresh = true;
+    for word in text.split_whitespace() {
+        let width = word.chars().count();
+        if !fresh && used + 1 + width > COLUMNS {
+            out.push('\n');
+            out.push_str(&" ".repeat(indent));
+            used = indent;
+            fresh = true;
+        }
+        if !fresh {
+            out.push(' ');
+            used += 1;
+        }
+        out.push_str(word);
+        used += width;
+        fresh = false;
+    }
+    out.push('\n');
+    out
+}
+
 fn headline(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) {
     let verdict = style.paint(verdict_word(outcome.verdict), verdict_tone(outcome.verdict));
     let gate = style.paint(
@@ -55,9 +88,10 @@ fn headline(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) {
         gate_tone(outcome.gate),
     );
     out.push_str(&format!("{verdict} \u{b7} {gate}\n"));
-    out.push_str(&format!("  {}\n", verdict_sentence(outcome)));
+    out.push_str(&wrapped("  ", &verdict_sentence(outcome), 2));
     for why in &outcome.gate_reasons {
-        out.push_str(&format!("  {} {why}\n", style.paint("fails:", Tone::Bad)));
+        let lines = wrapped("  fails: ", why, 9);
+        out.push_str(&lines.replacen("fails:", &style.paint("fails:", Tone::Bad), 1));
     }
     let f = &outcome.frames;
     let span = match (outcome.rows.first(), outcome.rows.last()) {
@@ -123,10 +157,10 @@ fn change_points(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle)
             None => String::new(),
         };
         out.push_str(&format!(
-            "  online alarm ({}) at frame {} (t = {} s){delay}\n",
-            alarm.detector,
+            "  online alarm at frame {} (t = {} s){delay}\n    detector: {}\n",
             alarm.frame,
-            fixed(alarm.time_s, 2)
+            fixed(alarm.time_s, 2),
+            alarm.detector
         ));
     }
 }
@@ -223,25 +257,64 @@ fn fixed_offset(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) 
     truth_line(out, outcome);
 }
 
+/// True errors of both pipelines (p95) as a small table: by range bin, within the contact
+/// range (where the tolerance applies) and over the whole session.
 fn truth_line(out: &mut String, outcome: &AuditOutcome) {
     let Some(truth) = &outcome.truth else {
         return;
     };
-    let d = &truth.dual_error_mm;
-    let mut line = format!(
-        "  against truth: dual-object error p95 {} mm (max {})",
-        fixed(d.p95, 1),
-        fixed(d.max, 1)
-    );
-    if let Some(f) = &truth.fixed_error_mm {
-        line.push_str(&format!(
-            ", fixed-offset p95 {} mm (max {})",
-            fixed(f.p95, 1),
-            fixed(f.max, 1)
-        ));
+    let p95 = |e: Option<&ErrorStats>| e.map_or("-".into(), |e| fixed(e.p95, 1));
+    let mut rows = vec![
+        vec!["true error p95, mm".to_string()],
+        vec!["  dual-object".to_string()],
+        vec!["  fixed-offset".to_string()],
+    ];
+    let mut column =
+        |head: String, dual: Option<&ErrorStats>, fixed_offset: Option<&ErrorStats>| {
+            rows[0].push(head);
+            rows[1].push(p95(dual));
+            rows[2].push(p95(fixed_offset));
+        };
+    if truth.by_range.len() > 1 {
+        for bin in &truth.by_range {
+            column(
+                range_head(bin),
+                bin.dual_error_mm.as_ref(),
+                bin.fixed_error_mm.as_ref(),
+            );
+        }
     }
-    out.push_str(&line);
-    out.push('\n');
+    let every_frame = truth
+        .dual_within_contact_mm
+        .is_some_and(|e| e.frames == truth.dual_error_mm.frames);
+    let within = format!("within {} m", fixed(truth.contact_range_m, 1));
+    if every_frame {
+        column(
+            format!("{within} (all)"),
+            Some(&truth.dual_error_mm),
+            truth.fixed_error_mm.as_ref(),
+        );
+    } else {
+        column(
+            within,
+            truth.dual_within_contact_mm.as_ref(),
+            truth.fixed_within_contact_mm.as_ref(),
+        );
+        column(
+            "all ranges".into(),
+            Some(&truth.dual_error_mm),
+            truth.fixed_error_mm.as_ref(),
+        );
+    }
+    table(out, &rows, 1);
+}
+
+fn range_head(bin: &TruthRangeBin) -> String {
+    if bin.range_max_m.is_finite() {
+        format!("{}-{} m", bin.range_min_m, bin.range_max_m)
+    } else {
+        format!("{}+ m", bin.range_min_m)
+    }
 }
 
 fn data_quality(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) {
@@ -300,8 +373,11 @@ fn sigma_text(outcome: &AuditOutcome, style: TerminalStyle) -> String {
     let Some(estimated) = s.estimated else {
         return format!("{stated}, not estimated (no redundant keypoints)");
     };
+    let decimals = s
+        .estimated_ci95
+        .map_or(2, |[lo, hi]| decimals_to_tell_apart(lo, hi, 2, 4));
     let ci = s.estimated_ci95.map_or(String::new(), |[lo, hi]| {
-        format!(" (95%: {}-{})", fixed(lo, 2), fixed(hi, 2))
+        format!(" (95%: {}-{})", fixed(lo, decimals), fixed(hi, decimals))
     });
     let agreement = if s.consistent {
         "consistent".to_string()
@@ -310,7 +386,7 @@ fn sigma_text(outcome: &AuditOutcome, style: TerminalStyle) -> String {
     };
     format!(
         "{stated}, estimated {} px{ci}: {agreement}",
-        fixed(estimated, 2)
+        fixed(estimated, decimals)
     )
 }
 
@@ -321,7 +397,7 @@ fn warnings(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) {
     heading(out, "Warnings", style);
     for warning in &outcome.warnings {
         let mark = style.paint("!", Tone::Caution);
-        out.push_str(&format!("  {mark} {}\n", warning.message));
-        out.push_str(&format!("    advice: {}\n", warning.advice));
+        out.push_str(&wrapped("  ! ", &warning.message, 4).replacen('!', &mark, 1));
+        out.push_str(&wrapped("    advice: ", &warning.advice, 12));
     }
 }

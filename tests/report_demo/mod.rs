@@ -201,6 +201,25 @@ fn range_bins() -> Vec<RangeBin> {
     .collect()
 }
 
+/// True errors by range: the dual-object error grows with range, the fixed-offset error with
+/// the shifted mount's lever arm (invented numbers).
+fn truth_bins() -> Vec<TruthRangeBin> {
+    [
+        (0.0, 5.0, 240, (0.4, 0.9, 1.1), (34.0, 39.9, 41.5)),
+        (5.0, 10.0, 390, (0.7, 1.5, 1.9), (30.1, 36.0, 38.3)),
+        (10.0, 15.0, 385, (1.0, 2.1, 2.6), (17.2, 33.5, 35.9)),
+        (15.0, 40.0, 1905, (1.4, 3.1, 4.9), (5.1, 28.0, 44.0)),
+    ]
+    .into_iter()
+    .map(|(lo, hi, n, dual, fixed)| TruthRangeBin {
+        range_min_m: lo,
+        range_max_m: hi,
+        dual_error_mm: Some(stats(n, dual.0, dual.1, dual.2)),
+        fixed_error_mm: Some(stats(n, fixed.0, fixed.1, fixed.2)),
+    })
+    .collect()
+}
+
 fn shifted_warnings() -> Vec<Warning> {
     vec![
         Warning {
@@ -280,6 +299,10 @@ pub fn shifted_outcome() -> AuditOutcome {
         truth: Some(TruthComparison {
             dual_error_mm: stats(2920, 1.1, 2.6, 4.9),
             fixed_error_mm: Some(stats(2920, 9.0, 37.8, 44.0)),
+            contact_range_m: 15.0,
+            dual_within_contact_mm: Some(stats(1015, 0.7, 1.6, 2.2)),
+            fixed_within_contact_mm: Some(stats(1015, 27.4, 39.1, 44.0)),
+            by_range: truth_bins(),
         }),
         online_alarm: Some(OnlineAlarm {
             detector: "CUSUM".into(),

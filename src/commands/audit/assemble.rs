@@ -35,7 +35,7 @@ pub fn build(setup: &Setup, solved: &Solved, analysis: &Analysis, policy: &Polic
     let fixed = setup.nominal.map(|_| fixed_offset(solved, &errors, policy));
     let truth = setup
         .has_truth
-        .then(|| truth_errors(setup, solved))
+        .then(|| truth_errors(setup, solved, policy))
         .flatten();
     let mut frames = frame_counts(&solved.records);
     frames.gross_error_frames = analysis.screened_records.len() as u64;
@@ -400,17 +400,51 @@ fn fixed_offset(solved: &Solved, errors: &FrameErrors, policy: &Policy) -> Fixed
     }
 }
 
-/// True errors of both pipelines' vectors, mm.
-fn truth_errors(setup: &Setup, solved: &Solved) -> Option<TruthComparison> {
-    let (dual, fixed): (Vec<Option<f64>>, Vec<Option<f64>>) = solved
-        .records
-        .iter()
-        .zip(&solved.truth)
-        .map(|(r, t)| true_errors(setup, r, t.as_ref()))
-        .unzip();
+/// True errors of both pipelines' vectors, mm: over the session, within the contact range and
+/// by range bin (measured range, as for the fixed-offset table and the gate).
+fn truth_errors(setup: &Setup, solved: &Solved, policy: &Policy) -> Option<TruthComparison> {
+    let mut all: [Vec<f64>; 2] = Default::default();
+    let mut contact: [Vec<f64>; 2] = Default::default();
+    let mut bins: Vec<[Vec<f64>; 2]> = vec![Default::default(); RANGE_BIN_EDGES_M.len() - 1];
+    for (r, t) in solved.records.iter().zip(&solved.truth) {
+        let errors = true_errors(setup, r, t.as_ref());
+        let range = r.dual_vector_m().map(|v| v.norm());
+        let bin = range.and_then(|m| {
+            RANGE_BIN_EDGES_M
+                .windows(2)
+                .position(|w| m >= w[0] && m < w[1])
+        });
+        for (k, e) in [errors.0, errors.1].into_iter().enumerate() {
+            let Some(e) = e else { continue };
+            all[k].push(e);
+            if range.is_some_and(|m| m <= policy.contact_range_m) {
+                contact[k].push(e);
+            }
+            if let Some(b) = bin {
+                bins[b][k].push(e);
+            }
+        }
+    }
+    let by_range = bins
+        .into_iter()
+        .enumerate()
+        .filter(|(_, [d, f])| !(d.is_empty() && f.is_empty()))
+        .map(|(b, [d, f])| TruthRangeBin {
+            range_min_m: RANGE_BIN_EDGES_M[b],
+            range_max_m: RANGE_BIN_EDGES_M[b + 1],
+            dual_error_mm: error_stats(d),
+            fixed_error_mm: error_stats(f),
+        })
+        .collect();
+    let [dual, fixed] = all;
+    let [dual_contact, fixed_contact] = contact;
     Some(TruthComparison {
-        dual_error_mm: error_stats(dual.into_iter().flatten().collect())?,
-        fixed_error_mm: error_stats(fixed.into_iter().flatten().collect()),
+        dual_error_mm: error_stats(dual)?,
+        fixed_error_mm: error_stats(fixed),
+        contact_range_m: policy.contact_range_m,
+        dual_within_contact_mm: error_stats(dual_contact),
+        fixed_within_contact_mm: error_stats(fixed_contact),
+        by_range,
     })
 }
 

@@ -242,6 +242,22 @@ pub struct RangeBin {
 pub struct TruthComparison {
     pub dual_error_mm: ErrorStats,
     pub fixed_error_mm: Option<ErrorStats>,
+    /// The same errors over the frames within the policy's contact range (measured range),
+    /// where the vector-error tolerance applies.
+    pub contact_range_m: f64,
+    pub dual_within_contact_mm: Option<ErrorStats>,
+    pub fixed_within_contact_mm: Option<ErrorStats>,
+    /// Both pipelines' true errors by measured range, in the bins of the fixed-offset table.
+    pub by_range: Vec<TruthRangeBin>,
+}
+
+/// True errors of both pipelines within one range bin.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TruthRangeBin {
+    pub range_min_m: f64,
+    pub range_max_m: f64,
+    pub dual_error_mm: Option<ErrorStats>,
+    pub fixed_error_mm: Option<ErrorStats>,
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize)]
