@@ -18,8 +18,27 @@ use super::outcome::*;
 use super::solve::Solved;
 use super::verdict;
 
-/// Range bins of the fixed-offset error table, m (the last bin is open-ended).
+/// Range bins of the error tables, m (the last bin is open-ended); the policy's contact range is
+/// added as one more edge ([`range_bin_edges_m`]).
 const RANGE_BIN_EDGES_M: [f64; 7] = [0.0, 5.0, 10.0, 20.0, 40.0, 80.0, f64::INFINITY];
+
+/// [`RANGE_BIN_EDGES_M`] with the contact range as an edge, so that no bin straddles the range
+/// within which the vector-error tolerance applies.
+fn range_bin_edges_m(contact_range_m: f64) -> Vec<f64> {
+    let mut edges = RANGE_BIN_EDGES_M.to_vec();
+    if contact_range_m.is_finite() && contact_range_m > 0.0 && !edges.contains(&contact_range_m) {
+        edges.push(contact_range_m);
+        edges.sort_by(f64::total_cmp);
+    }
+    edges
+}
+
+/// The bin of `range_m` among `edges` (lower edge included).
+fn range_bin(edges: &[f64], range_m: f64) -> Option<usize> {
+    edges
+        .windows(2)
+        .position(|w| range_m >= w[0] && range_m < w[1])
+}
 
 /// Everything the per-frame rows and the summary tables share.
 struct FrameErrors {
@@ -362,7 +381,8 @@ fn fixed_offset(solved: &Solved, errors: &FrameErrors, policy: &Policy) -> Fixed
     let mut over = 0;
     let mut first_over = None;
     let mut max_error: f64 = 0.0;
-    let mut bins: Vec<Vec<f64>> = vec![Vec::new(); RANGE_BIN_EDGES_M.len() - 1];
+    let edges = range_bin_edges_m(policy.contact_range_m);
+    let mut bins: Vec<Vec<f64>> = vec![Vec::new(); edges.len() - 1];
     for (r, e) in solved.records.iter().zip(&errors.fixed_mm) {
         let (Some(e), Some(range)) = (*e, r.dual_vector_m().map(|v| v.norm())) else {
             continue;
@@ -372,10 +392,7 @@ fn fixed_offset(solved: &Solved, errors: &FrameErrors, policy: &Policy) -> Fixed
             over += 1;
             first_over.get_or_insert(r.frame);
         }
-        let bin = RANGE_BIN_EDGES_M
-            .windows(2)
-            .position(|w| range >= w[0] && range < w[1]);
-        if let Some(b) = bin {
+        if let Some(b) = range_bin(&edges, range) {
             bins[b].push(e);
         }
     }
@@ -384,8 +401,8 @@ fn fixed_offset(solved: &Solved, errors: &FrameErrors, policy: &Policy) -> Fixed
         .enumerate()
         .filter_map(|(b, v)| {
             error_stats(v).map(|s| RangeBin {
-                range_min_m: RANGE_BIN_EDGES_M[b],
-                range_max_m: RANGE_BIN_EDGES_M[b + 1],
+                range_min_m: edges[b],
+                range_max_m: edges[b + 1],
                 error_mm: s,
             })
         })
@@ -405,15 +422,12 @@ fn fixed_offset(solved: &Solved, errors: &FrameErrors, policy: &Policy) -> Fixed
 fn truth_errors(setup: &Setup, solved: &Solved, policy: &Policy) -> Option<TruthComparison> {
     let mut all: [Vec<f64>; 2] = Default::default();
     let mut contact: [Vec<f64>; 2] = Default::default();
-    let mut bins: Vec<[Vec<f64>; 2]> = vec![Default::default(); RANGE_BIN_EDGES_M.len() - 1];
+    let edges = range_bin_edges_m(policy.contact_range_m);
+    let mut bins: Vec<[Vec<f64>; 2]> = vec![Default::default(); edges.len() - 1];
     for (r, t) in solved.records.iter().zip(&solved.truth) {
         let errors = true_errors(setup, r, t.as_ref());
         let range = r.dual_vector_m().map(|v| v.norm());
-        let bin = range.and_then(|m| {
-            RANGE_BIN_EDGES_M
-                .windows(2)
-                .position(|w| m >= w[0] && m < w[1])
-        });
+        let bin = range.and_then(|m| range_bin(&edges, m));
         for (k, e) in [errors.0, errors.1].into_iter().enumerate() {
             let Some(e) = e else { continue };
             all[k].push(e);
@@ -430,8 +444,8 @@ fn truth_errors(setup: &Setup, solved: &Solved, policy: &Policy) -> Option<Truth
         .enumerate()
         .filter(|(_, [d, f])| !(d.is_empty() && f.is_empty()))
         .map(|(b, [d, f])| TruthRangeBin {
-            range_min_m: RANGE_BIN_EDGES_M[b],
-            range_max_m: RANGE_BIN_EDGES_M[b + 1],
+            range_min_m: edges[b],
+            range_max_m: edges[b + 1],
             dual_error_mm: error_stats(d),
             fixed_error_mm: error_stats(f),
         })
@@ -524,5 +538,28 @@ fn status(r: &FrameRecord) -> String {
         (Ok(_), Ok(_)) => "ok".to_string(),
         (Ok(_), Err(reason)) => format!("no_drogue:{}", reason_name(*reason)),
         (Err(reason), _) => format!("rejected:{}", reason_name(*reason)),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_contact_range_is_a_bin_edge() {
+        let edges = range_bin_edges_m(15.0);
+        assert_eq!(
+            edges,
+            vec![0.0, 5.0, 10.0, 15.0, 20.0, 40.0, 80.0, f64::INFINITY]
+        );
+        assert_eq!(range_bin(&edges, 14.99), Some(2));
+        assert_eq!(range_bin(&edges, 15.0), Some(3));
+        assert_eq!(range_bin(&edges, 1e6), Some(6));
+        // An edge already present is not repeated; a meaningless range adds none.
+        assert_eq!(range_bin_edges_m(20.0).len(), RANGE_BIN_EDGES_M.len());
+        assert_eq!(
+            range_bin_edges_m(f64::INFINITY).len(),
+            RANGE_BIN_EDGES_M.len()
+        );
     }
 }
