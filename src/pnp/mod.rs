@@ -336,11 +336,14 @@ fn solve(
         gate: &gate,
     };
     // A warm fit that gated a few points out is final when a start from its inliers alone
-    // lands on it again (try_warm already checked its fit and how many points it lost).
-    if let Some(s) = warm_fit
+    // lands on it again (try_warm already checked its fit and how many points it lost). Not for
+    // a weakly seen relief: there the warm fit may sit in the mirror basin, which only the
+    // mirror starts of the global search reach.
+    let confirmed = warm_fit
         .as_ref()
-        .and_then(|s| confirm_leaving_out(&problem, s))
-    {
+        .filter(|s| !ambiguity::relief_is_weak(&problem, &geometry, &s.pose))
+        .and_then(|s| confirm_leaving_out(&problem, s));
+    if let Some(s) = confirmed {
         return conclude(&problem, &geometry, s, obs.len(), options);
     }
     let solution = global_solution(&problem, &geometry, warm_fit.map(|s| s.pose), options)?;
@@ -454,12 +457,18 @@ fn fit_passes(s: &Solution, n: usize, options: &PnpOptions) -> bool {
         )
 }
 
-/// The cheap outlier path: starts computed from the inliers of `s` alone (the points its gate
-/// flagged left out, no prior) refined over all points as the subset starts are. The first that
+/// The cheap outlier path, for a solution whose gated points all lie far out
+/// (`tol::PNP_CLEAR_OUTLIER_CHI2`): starts computed from its inliers alone (the flagged points
+/// left out, no prior) refined over all points as the subset starts are. The first that
 /// lands on the same minimum confirms `s`; the better of the two is returned. `None` when none
 /// does, and the full search decides.
 fn confirm_leaving_out(problem: &refine::Problem, s: &Solution) -> Option<Solution> {
-    if s.inlier_count() == problem.pts.len() {
+    let clear_outliers = problem.pts.iter().zip(&s.inliers).all(|(c, &inlier)| {
+        inlier
+            || refine::squared_residual(problem, c, &s.pose)
+                .is_none_or(|sq| sq >= tol::PNP_CLEAR_OUTLIER_CHI2)
+    });
+    if s.inlier_count() == problem.pts.len() || !clear_outliers {
         return None;
     }
     start::inlier_starts(problem, &s.inliers)
