@@ -73,7 +73,7 @@ fn distinct(alt: Alternative, solution: &Solution) -> Option<Alternative> {
 /// Whether the model's relief off its best-fit plane, seen from the current pose, spans fewer
 /// than `tol::MIRROR_RELIEF_SIGMA` standard deviations: `f · 2 s₃ / z < k σ`, with s₃ the RMS
 /// distance from the plane and z the depth of the centroid. Always true for planar sets.
-fn relief_is_weak(problem: &Problem, geometry: &PointGeometry, pose: &Pose) -> bool {
+pub(crate) fn relief_is_weak(problem: &Problem, geometry: &PointGeometry, pose: &Pose) -> bool {
     let depth = pose.transform(&geometry.centroid_m).z;
     if depth <= 0.0 {
         return false;

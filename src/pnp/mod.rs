@@ -311,7 +311,7 @@ fn solve(
     let gate = Gate::from_options(options);
     // A warm start that fits every point is final; one that gates points out competes with the
     // global search, which may find a pose that explains more of them.
-    let mut warm_pose = None;
+    let mut warm_fit = None;
     if let Some(warm) = warm_start {
         let geometry = PointGeometry::of(pts.iter().map(|c| c.model_m));
         geometry.check()?;
@@ -324,8 +324,7 @@ fn solve(
             Some(s) if s.inlier_count() == pts.len() => {
                 return conclude(&problem, &geometry, s, obs.len(), options);
             }
-            Some(s) => warm_pose = Some(s.pose),
-            None => {}
+            other => warm_fit = other,
         }
     }
     prepare::undistort_all(camera, &mut pts)?;
@@ -336,7 +335,18 @@ fn solve(
         pts: &pts,
         gate: &gate,
     };
-    let solution = global_solution(&problem, &geometry, warm_pose)?;
+    // A warm fit that gated a few points out is final when a start from its inliers alone
+    // lands on it again (try_warm already checked its fit and how many points it lost). Not for
+    // a weakly seen relief: there the warm fit may sit in the mirror basin, which only the
+    // mirror starts of the global search reach.
+    let confirmed = warm_fit
+        .as_ref()
+        .filter(|s| !ambiguity::relief_is_weak(&problem, &geometry, &s.pose))
+        .and_then(|s| confirm_leaving_out(&problem, s));
+    if let Some(s) = confirmed {
+        return conclude(&problem, &geometry, s, obs.len(), options);
+    }
+    let solution = global_solution(&problem, &geometry, warm_fit.map(|s| s.pose), options)?;
     conclude(&problem, &geometry, solution, obs.len(), options)
 }
 
@@ -373,14 +383,7 @@ fn try_warm(
         return None;
     }
     let mut s = refine::robust_solve(problem, Pose::from_isometry(warm), PoseStart::Warm)?;
-    let n = problem.pts.len();
-    let outliers = n - s.inlier_count();
-    let fit_ok = uncertainty::chi2_below_quantile(
-        s.normal.cost,
-        (2 * s.inlier_count()).saturating_sub(6),
-        options.warm_fit_probability,
-    );
-    (s.converged && fit_ok && outliers <= n / tol::WARM_MAX_OUTLIER_DIVISOR).then(|| {
+    fit_passes(&s, problem.pts.len(), options).then(|| {
         s.start = PoseStart::Warm;
         s
     })
@@ -393,6 +396,7 @@ fn global_solution(
     problem: &refine::Problem,
     geometry: &PointGeometry,
     warm_pose: Option<Pose>,
+    options: &PnpOptions,
 ) -> Result<Solution, Rejection> {
     let n = problem.pts.len();
     let mut search = Search {
@@ -412,6 +416,13 @@ fn global_solution(
             return search.finish();
         }
     }
+    // The best start (or mirror) gated a few points out and fits the rest well: a start from its inliers
+    // alone that lands on it again confirms it, as a subset start would below.
+    if let Some(best) = search.best.as_ref().filter(|s| fit_passes(s, n, options)) {
+        if let Some(s) = confirm_leaving_out(problem, best) {
+            return Ok(s);
+        }
+    }
     // Outliers can drag every start computed from all points into a wrong basin: retry from
     // starts computed on subsets that leave them out.
     for (pose, kind) in start::subset_starts(problem) {
@@ -419,10 +430,7 @@ fn global_solution(
         search.any_in_front |= refine::all_in_front(problem, &pose);
         if let Some(s) = refine::robust_solve_with_outliers(problem, pose, kind, 0) {
             // A subset start that lands on the same inliers and cost confirms the best.
-            let confirms = search.best.as_ref().is_some_and(|b| {
-                b.inliers == s.inliers
-                    && (b.gated_cost - s.gated_cost).abs() <= 1e-9 * (1.0 + b.gated_cost)
-            });
+            let confirms = search.best.as_ref().is_some_and(|b| same_minimum(b, &s));
             keep_better(&mut search.best, s);
             if confirms {
                 break;
@@ -430,6 +438,44 @@ fn global_solution(
         }
     }
     search.finish()
+}
+
+/// Two refinements reached the same minimum: the same inliers and the same gated cost.
+fn same_minimum(a: &Solution, b: &Solution) -> bool {
+    a.inliers == b.inliers && (a.gated_cost - b.gated_cost).abs() <= 1e-9 * (1.0 + a.gated_cost)
+}
+
+/// A converged solution that lost at most a `tol::WARM_MAX_OUTLIER_DIVISOR`-th of the points to
+/// the gate, with an inlier chi-square below the `warm_fit_probability` quantile.
+fn fit_passes(s: &Solution, n: usize, options: &PnpOptions) -> bool {
+    s.converged
+        && n - s.inlier_count() <= n / tol::WARM_MAX_OUTLIER_DIVISOR
+        && uncertainty::chi2_below_quantile(
+            s.normal.cost,
+            (2 * s.inlier_count()).saturating_sub(6),
+            options.warm_fit_probability,
+        )
+}
+
+/// The cheap outlier path, for a solution whose gated points all lie far out
+/// (`tol::PNP_CLEAR_OUTLIER_CHI2`): starts computed from its inliers alone (the flagged points
+/// left out, no prior) refined over all points as the subset starts are. The first that
+/// lands on the same minimum confirms `s`; the better of the two is returned. `None` when none
+/// does, and the full search decides.
+fn confirm_leaving_out(problem: &refine::Problem, s: &Solution) -> Option<Solution> {
+    let clear_outliers = problem.pts.iter().zip(&s.inliers).all(|(c, &inlier)| {
+        inlier
+            || refine::squared_residual(problem, c, &s.pose)
+                .is_none_or(|sq| sq >= tol::PNP_CLEAR_OUTLIER_CHI2)
+    });
+    if s.inlier_count() == problem.pts.len() || !clear_outliers {
+        return None;
+    }
+    start::inlier_starts(problem, &s.inliers)
+        .into_iter()
+        .filter_map(|(pose, kind)| refine::robust_solve_with_outliers(problem, pose, kind, 0))
+        .find(|c| same_minimum(s, c))
+        .map(|c| if c.better_than(s) { c } else { s.clone() })
 }
 
 /// State of the global search: the best solution so far and what the starts showed.

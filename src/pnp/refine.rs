@@ -163,7 +163,7 @@ pub(crate) fn all_in_front(problem: &Problem, pose: &Pose) -> bool {
 }
 
 /// Squared whitened residual of one point, `None` behind the camera.
-fn squared_residual(problem: &Problem, c: &Correspondence, pose: &Pose) -> Option<f64> {
+pub(crate) fn squared_residual(problem: &Problem, c: &Correspondence, pose: &Pose) -> Option<f64> {
     let px = problem.camera.project(&pose.transform(&c.model_m))?;
     Some(((px - c.px) * c.inv_sigma).norm_squared())
 }

@@ -132,3 +132,20 @@ pub(crate) fn subset_starts(problem: &Problem) -> Vec<(Pose, PoseStart)> {
     out.truncate(tol::PNP_SUBSET_REFINED);
     out
 }
+
+/// Starts from the given inliers alone (of the plausible keypoints), best first by gated cost over
+/// all points: the subset that leaves out exactly the points a refinement gated out.
+pub(crate) fn inlier_starts(problem: &Problem, inliers: &[bool]) -> Vec<(Pose, PoseStart)> {
+    let kept: Vec<Correspondence> = problem
+        .pts
+        .iter()
+        .zip(inliers)
+        .filter(|(c, &keep)| keep && plausible(problem, c))
+        .map(|(c, _)| *c)
+        .collect();
+    let geometry = PointGeometry::of(kept.iter().map(|c| c.model_m));
+    if kept.len() < 4 || geometry.check().is_err() {
+        return Vec::new();
+    }
+    ranked(problem, starts_for(&kept, &geometry, problem.noise_floor()))
+}

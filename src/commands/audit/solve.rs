@@ -1,6 +1,6 @@
 //! Streams an audit's frames through the per-frame solver in batches, keeping the frame records
 //! and the truth aligned with them. Memory grows with the solved frames only (no image data,
-//! no keypoints kept).
+//! no keypoints kept). The next batch is read while the current one is solved.
 
 use crate::geometry::Mount;
 use crate::offset::frames::{FrameRecord, FrameSolver};
@@ -40,15 +40,10 @@ pub fn solve_all(
         }),
     };
     let mut reference_known = setup.nominal.is_some();
-    let mut batch: Vec<FrameDetections> = Vec::with_capacity(BATCH_FRAMES);
-    let mut frames = frames.peekable();
-    while frames.peek().is_some() {
-        batch.clear();
-        for item in frames.by_ref().take(BATCH_FRAMES) {
-            let (detections, truth) = item?;
-            batch.push(detections);
-            solved.truth.push(truth);
-        }
+    let mut frames = frames;
+    let mut next = read_batch(&mut frames, &mut solved.truth)?;
+    while !next.is_empty() {
+        let batch = std::mem::take(&mut next);
         if !reference_known {
             if let Some(mount) = first_observed_mount(setup, &batch) {
                 solved.reference = mount;
@@ -62,10 +57,32 @@ pub fn solve_all(
             reference: solved.reference,
             options: PnpOptions::default(),
         };
-        solved.records.extend(solver.solve_batch(&batch));
+        // The next batch is read on this thread while the pool solves this one.
+        let (records, read) = std::thread::scope(|scope| {
+            let solving = scope.spawn(|| solver.solve_batch(&batch));
+            let read = read_batch(&mut frames, &mut solved.truth);
+            (solving.join(), read)
+        });
+        let records = records.unwrap_or_else(|panic| std::panic::resume_unwind(panic));
+        solved.records.extend(records);
         progress(solved.records.len() as u64);
+        next = read?;
     }
     Ok(solved)
+}
+
+/// Reads up to `BATCH_FRAMES` frames, appending their truth to `truth`; empty at the end.
+fn read_batch(
+    frames: &mut impl Iterator<Item = FrameInput>,
+    truth: &mut Vec<Option<TruthRow>>,
+) -> Result<Vec<FrameDetections>, InputError> {
+    let mut batch = Vec::with_capacity(BATCH_FRAMES);
+    for item in frames.by_ref().take(BATCH_FRAMES) {
+        let (detections, row) = item?;
+        batch.push(detections);
+        truth.push(row);
+    }
+    Ok(batch)
 }
 
 /// The observed mount of the first frame in `batch` whose probe pose solves.
