@@ -57,13 +57,21 @@ pub fn solve_all(
             reference: solved.reference,
             options: PnpOptions::default(),
         };
-        // The next batch is read on this thread while the pool solves this one.
-        let (records, read) = std::thread::scope(|scope| {
-            let solving = scope.spawn(|| solver.solve_batch(&batch));
-            let read = read_batch(&mut frames, &mut solved.truth);
-            (solving.join(), read)
-        });
-        let records = records.unwrap_or_else(|panic| std::panic::resume_unwind(panic));
+        let (records, read) = if rayon::current_thread_index().is_some() {
+            // Already on a pool thread (audits run in parallel, e.g. a sensitivity study): a
+            // blocking join here would hold a worker the solve itself needs, so no overlap.
+            let records = solver.solve_batch(&batch);
+            (records, read_batch(&mut frames, &mut solved.truth))
+        } else {
+            // The next batch is read on this thread while the pool solves this one.
+            let (records, read) = std::thread::scope(|scope| {
+                let solving = scope.spawn(|| solver.solve_batch(&batch));
+                let read = read_batch(&mut frames, &mut solved.truth);
+                (solving.join(), read)
+            });
+            let records = records.unwrap_or_else(|panic| std::panic::resume_unwind(panic));
+            (records, read)
+        };
         solved.records.extend(records);
         progress(solved.records.len() as u64);
         next = read?;
