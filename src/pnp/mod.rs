@@ -10,9 +10,11 @@
 //! with a Huber loss when some points do not fit, then by least squares over the points that pass a
 //! chi-square (2 dof) gate evaluated at the final pose. When points fail the gate, starts from
 //! subsets that leave them out (leave-one-out and seeded random subsets) compete, scored as in
-//! MLESAC (Torr and Zisserman, CVIU 78, 2000). The covariance is the rank-aware pseudo-inverse of
-//! the Fisher information at the optimum. For coplanar or weakly-perspective targets the mirror
-//! (Necker) minimum is refined too and reported with its chi-square difference.
+//! MLESAC (Torr and Zisserman, CVIU 78, 2000); when the gated points lie far out, a start from the
+//! points that pass is tried first, and landing on the same minimum ends the search. The
+//! covariance is the rank-aware pseudo-inverse of the Fisher information at the optimum. For
+//! coplanar or weakly-perspective targets the mirror (Necker) minimum is refined too and reported
+//! with its chi-square difference.
 //! Nothing here panics on input or returns NaN: a frame that cannot be solved is a `Rejection`.
 
 mod ambiguity;
@@ -416,8 +418,8 @@ fn global_solution(
             return search.finish();
         }
     }
-    // The best start (or mirror) gated a few points out and fits the rest well: a start from its inliers
-    // alone that lands on it again confirms it, as a subset start would below.
+    // The best start (or mirror) gated a few points out and fits the rest well: a start from
+    // its inliers alone that lands on it again confirms it, as a subset start would below.
     if let Some(best) = search.best.as_ref().filter(|s| fit_passes(s, n, options)) {
         if let Some(s) = confirm_leaving_out(problem, best) {
             return Ok(s);
