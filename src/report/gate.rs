@@ -11,6 +11,7 @@ use crate::session::yaml::{self, YamlWriteError};
 
 use super::format::{fixed, p_value, signed};
 use super::style::{TerminalStyle, Tone};
+use super::terminal::table;
 
 /// A survey's report JSON: the outcome itself, pretty-printed, with a final newline.
 pub fn write_survey_json(w: &mut dyn Write, outcome: &SurveyOutcome) -> io::Result<()> {
@@ -70,36 +71,6 @@ fn heading(out: &mut String, text: &str, style: TerminalStyle) {
     out.push('\n');
     out.push_str(&style.paint(text, Tone::Heading));
     out.push('\n');
-}
-
-/// Cells padded to their column's widest; the first column left-aligned, the others right.
-fn table(out: &mut String, rows: &[Vec<String>]) {
-    let columns = rows.iter().map(Vec::len).max().unwrap_or(0);
-    let widths: Vec<usize> = (0..columns)
-        .map(|c| {
-            rows.iter()
-                .filter_map(|r| r.get(c))
-                .map(|s| s.chars().count())
-                .max()
-                .unwrap_or(0)
-        })
-        .collect();
-    for row in rows {
-        let mut line = String::new();
-        for (c, cell) in row.iter().enumerate() {
-            let pad = " ".repeat(widths[c] - cell.chars().count());
-            line.push_str("  ");
-            if c == 0 {
-                line.push_str(cell);
-                line.push_str(&pad);
-            } else {
-                line.push_str(&pad);
-                line.push_str(cell);
-            }
-        }
-        out.push_str(line.trim_end());
-        out.push('\n');
-    }
 }
 
 fn warnings(out: &mut String, list: &[GateWarning], style: TerminalStyle) {
@@ -206,7 +177,7 @@ fn survey_mount(out: &mut String, outcome: &SurveyOutcome, style: TerminalStyle)
             from_nominal,
         ]);
     }
-    table(out, &rows);
+    table(out, &rows, 1);
 }
 
 fn survey_precision(out: &mut String, outcome: &SurveyOutcome, style: TerminalStyle) {
@@ -223,7 +194,7 @@ fn survey_precision(out: &mut String, outcome: &SurveyOutcome, style: TerminalSt
             mark,
         ]);
     }
-    table(out, &rows);
+    table(out, &rows, 1);
     if let (Some(n), Some(s)) = (p.frames_needed, p.seconds_needed) {
         out.push_str(&format!(
             "  about {n} stable solved frames ({s:.0} s) would meet the rule\n"
@@ -419,5 +390,5 @@ fn compare_axes(out: &mut String, outcome: &CompareOutcome, style: TerminalStyle
             result_word(a.result).to_string(),
         ]);
     }
-    table(out, &rows);
+    table(out, &rows, 1);
 }

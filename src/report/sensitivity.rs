@@ -15,6 +15,7 @@ use super::curves::{
 };
 use super::format::fixed;
 use super::style::{TerminalStyle, Tone};
+use super::terminal::table;
 
 /// One file of a study's output folder.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -249,7 +250,7 @@ pub fn write_sensitivity_summary(
     out.push('\n');
     out.push_str(&style.paint("Detection of a step at mid-session", Tone::Heading));
     out.push('\n');
-    table(&mut out, &detection_rows(outcome));
+    table(&mut out, &detection_rows(outcome), 2);
     out.push('\n');
     out.push_str(&style.paint(
         &format!(
@@ -340,37 +341,6 @@ fn detection_rows(outcome: &SensitivityOutcome) -> Vec<Vec<String>> {
         }
     }
     rows
-}
-
-/// Columns as wide as their widest cell; the first two left-aligned, the rest right-aligned.
-fn table(out: &mut String, rows: &[Vec<String>]) {
-    let columns = rows.iter().map(Vec::len).max().unwrap_or(0);
-    let widths: Vec<usize> = (0..columns)
-        .map(|c| {
-            rows.iter()
-                .filter_map(|r| r.get(c))
-                .map(|s| s.chars().count())
-                .max()
-                .unwrap_or(0)
-        })
-        .collect();
-    for row in rows {
-        let cells: Vec<String> = row
-            .iter()
-            .zip(&widths)
-            .enumerate()
-            .map(|(c, (text, &width))| {
-                if c < 2 {
-                    format!("{text:<width$}")
-                } else {
-                    format!("{text:>width$}")
-                }
-            })
-            .collect();
-        out.push_str("  ");
-        out.push_str(cells.join("  ").trim_end());
-        out.push('\n');
-    }
 }
 
 /// Three significant digits, the precision a ladder of a few sizes supports.

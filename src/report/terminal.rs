@@ -108,7 +108,7 @@ fn headline(out: &mut String, outcome: &AuditOutcome, style: TerminalStyle) {
 
 /// Rows of cells printed with each column as wide as its widest cell; the first `left`
 /// columns are left-aligned, the rest right-aligned.
-fn table(out: &mut String, rows: &[Vec<String>], left: usize) {
+pub(super) fn table(out: &mut String, rows: &[Vec<String>], left: usize) {
     let columns = rows.iter().map(Vec::len).max().unwrap_or(0);
     let widths: Vec<usize> = (0..columns)
         .map(|c| {
