@@ -113,7 +113,7 @@ pub struct EffectiveNoise {
     /// segment's mean, corrected for its small-sample bias `−(1+3ρ)/N` (Kendall 1954; `N` lag-1
     /// pairs). Precise (standard error about `1/√N`), but an undeclared mean shift inflates it.
     pub lag1: f64,
-    /// A shift-robust version from the semivariogram (see `lag1_per_direction`), noisier; used
+    /// A shift-robust version from the semivariogram (see `robust_lag1_and_variance`), noisier; used
     /// before any segment is known.
     pub lag1_robust: f64,
     /// The AR(1) coefficient with the data's ratio of the studentiser to the marginal variance,
@@ -274,13 +274,13 @@ pub fn estimate_effective_noise(
     let far_lags: Vec<usize> = (2..=4)
         .map(|k| (k * scales.min_scale).min(z.len() / 4).max(2))
         .collect();
-    let robust = lag1_per_direction(z, segments, &directions, &factors, &far_lags);
+    let (robust, far_variance) =
+        robust_lag1_and_variance(z, segments, &directions, &factors, &far_lags);
     let (lag1, pairs, variance) = residual_lag1(z, segments, &directions, &factors);
     let corrected = |rho: f64| (rho + (1.0 + 3.0 * rho.max(0.0)) / pairs.max(1) as f64).min(1.0);
-    // The AR(1) coefficient with the data's ratio of the studentiser `κ_j` (the largest scaled
-    // Allan variance) to the marginal variance: against the residual variance (precise) and
-    // against the far semivariogram (shift-robust).
-    let far_variance = far_semivariogram(z, segments, &directions, &factors, &far_lags);
+    // The AR(1) coefficient with the data's ratio of the studentiser `κ_j` to the marginal
+    // variance: against the residual variance (precise) and against the far semivariogram
+    // (shift-robust).
     // Pooled over the directions (the trace): the eigenvalues of a noisy estimate spread about
     // the truth, so their largest ratio would call white noise correlated; correlation confined
     // to one direction is still caught by the lag-1 coefficient.
@@ -469,55 +469,36 @@ fn robust_semivariogram(u: &[f64], segments: &[(usize, usize)], lag: usize) -> O
     Some(*median / (2.0 * CHI2_1_MEDIAN))
 }
 
-/// The marginal variance of each active direction from the robust semivariogram at the far
-/// lags (`D̄` of `lag1_per_direction`; untouched by a few pairs across an unknown shift).
-fn far_semivariogram(
+/// Per active principal direction, from the robust semivariogram: the lag-1 autocorrelation
+/// `ρ = 1 − D(1)/D̄` and the marginal variance `D̄` (for AR(1) noise `D(k) = γ₀(1 − ρ^k)`, and
+/// `D̄ ≈ γ₀`, the mean of `D` at two, three and four minimum segment lengths, once `ρ^k` is small
+/// there). Differences of nearby samples are untouched by mean shifts (a few pairs across an
+/// unknown shift do not move the robust estimate). A fast vibration adds about as much to `D(1)`
+/// as to `D̄` and does not look like correlated noise; a slow one does (the penalty then errs
+/// high). Zero for inactive directions and where it cannot be measured.
+fn robust_lag1_and_variance(
     z: &[Vector6<f64>],
     segments: &[(usize, usize)],
     directions: &Matrix6<f64>,
     factors: &Vector6<f64>,
     far_lags: &[usize],
-) -> Vector6<f64> {
-    Vector6::from_fn(|j, _| {
-        if factors[j] <= 0.0 {
-            return 0.0;
-        }
-        let u: Vec<f64> = z.iter().map(|v| directions.column(j).dot(v)).collect();
-        let far: Option<Vec<f64>> = far_lags
-            .iter()
-            .map(|&lag| robust_semivariogram(&u, segments, lag))
-            .collect();
-        far.map_or(0.0, |d| d.iter().sum::<f64>() / d.len() as f64)
-    })
-}
-
-/// Lag-1 autocorrelation of each active principal direction from the robust semivariogram,
-/// `ρ = 1 − D(1)/D̄` (for AR(1) noise `D(k) = γ₀(1 − ρ^k)`, and `D̄ ≈ γ₀`, the mean of `D` at two,
-/// three and four minimum segment lengths, once `ρ^k` is small there). Differences of nearby
-/// samples are untouched by mean shifts. A fast vibration adds about as much to `D(1)` as to
-/// `D̄` and does not look like correlated noise; a slow one does (the penalty then errs high).
-/// Zero for inactive directions and where it cannot be measured.
-fn lag1_per_direction(
-    z: &[Vector6<f64>],
-    segments: &[(usize, usize)],
-    directions: &Matrix6<f64>,
-    factors: &Vector6<f64>,
-    far_lags: &[usize],
-) -> Vector6<f64> {
-    Vector6::from_fn(|j, _| {
-        if factors[j] <= 0.0 {
-            return 0.0;
-        }
+) -> (Vector6<f64>, Vector6<f64>) {
+    let mut lag1 = Vector6::zeros();
+    let mut variance = Vector6::zeros();
+    for j in (0..6).filter(|&j| factors[j] > 0.0) {
         let u: Vec<f64> = z.iter().map(|v| directions.column(j).dot(v)).collect();
         let near = robust_semivariogram(&u, segments, 1);
         let far: Option<Vec<f64>> = far_lags
             .iter()
             .map(|&lag| robust_semivariogram(&u, segments, lag))
             .collect();
-        let far = far.map(|d| d.iter().sum::<f64>() / d.len() as f64);
-        match (near, far) {
-            (Some(near), Some(far)) if far > 0.0 => (1.0 - near / far).clamp(0.0, 1.0),
-            _ => 0.0,
+        let Some(far) = far.map(|d| d.iter().sum::<f64>() / d.len() as f64) else {
+            continue;
+        };
+        variance[j] = far;
+        if let Some(near) = near.filter(|_| far > 0.0) {
+            lag1[j] = (1.0 - near / far).clamp(0.0, 1.0);
         }
-    })
+    }
+    (lag1, variance)
 }
