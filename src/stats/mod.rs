@@ -6,6 +6,7 @@
 //!
 //! - [`distributions`]: chi-square, F, normal and Student t quantiles and tail probabilities.
 //! - [`information`]: rank-aware information matrices (pseudo-inverse of a covariance).
+//! - [`packed`]: symmetric 6x6 matrices stored as their 21 upper-triangle entries.
 //! - [`series`]: a validated deviation series, its common whitening and effective information.
 //! - [`consistency`]: per-frame and windowed chi-square tests, pixel-noise estimate, excess
 //!   scatter, NEES acceptance intervals.
@@ -28,6 +29,7 @@ pub mod drift;
 pub mod information;
 pub mod multivariate;
 pub mod noise;
+pub mod packed;
 pub mod online;
 pub mod penalty;
 pub mod screening;
