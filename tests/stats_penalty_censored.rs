@@ -6,8 +6,8 @@
 use mountdrift::stats::changepoint::pelt;
 use mountdrift::stats::cost::L2Cost;
 use mountdrift::stats::penalty::{
-    ar1_series, best_single_split_gain, critical_penalty, critical_penalty_above,
-    CalibrationSettings, PenaltyCalibrator,
+    ar1_series, best_single_split_gain, critical_penalty, critical_penalty_above, tolerance_bound,
+    CalibrationSettings, PenaltyCalibrator, CALIBRATION_CONFIDENCE,
 };
 use rand::SeedableRng;
 use rand_pcg::Pcg64Mcg;
@@ -27,10 +27,10 @@ fn censored_calibration_equals_the_full_one_in_the_tail() {
         for rate in [0.2, 0.1, 0.05, 0.01] {
             let censored = calibrator.calibrate(n, dim, 10, rate, lag1).unwrap();
             assert!(censored.censored_runs > 0 && censored.censor.is_finite());
-            // The full distribution's quantile at `rate`: the value exceeded by at most `rate`.
+            // The full distribution's tolerance bound at `rate` (at or above its quantile).
             let sorted = &full.null_critical;
-            let rank = ((1.0 - rate) * sorted.len() as f64).ceil() as usize;
-            assert_eq!(censored.penalty, sorted[rank - 1], "n {n} rate {rate}");
+            let bound = tolerance_bound(sorted, rate, CALIBRATION_CONFIDENCE).unwrap();
+            assert_eq!(censored.penalty, bound.value, "n {n} rate {rate}");
             assert!(censored.penalty >= censored.censor);
             for gain in [
                 censored.penalty,

@@ -514,11 +514,13 @@ pub(super) fn inputs(outcome: &AuditOutcome) -> String {
         (
             "change search",
             format!(
-                "{}; penalty {}, segments of at least {} frames, {} calibration runs",
+                "{}; penalty {}, segments of at least {} frames, {} calibration runs \
+                 (false-alarm rate at most the policy's with {}% confidence)",
                 search.method,
                 fixed(search.penalty, 2),
                 search.min_segment_frames,
-                search.calibration_runs
+                search.calibration_runs,
+                fixed(100.0 * search.calibration_confidence, 0)
             ),
         ),
         (

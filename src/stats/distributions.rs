@@ -180,3 +180,21 @@ pub fn t_quantile(p: f64, dof: f64) -> Result<f64, StatsError> {
 pub fn t_sf(t: f64, dof: f64) -> Result<f64, StatsError> {
     Ok(students_t(dof)?.sf(check_statistic(t)?))
 }
+
+/// Binomial distribution function `P(X <= k)` for `X ~ Binomial(n, p)`.
+pub fn binomial_cdf(k: u64, n: u64, p: f64) -> Result<f64, StatsError> {
+    if !(0.0..=1.0).contains(&p) {
+        return Err(StatsError::InvalidParameter {
+            name: "binomial success probability",
+            value: p,
+            expected: "a probability from 0 to 1",
+        });
+    }
+    let binomial =
+        statrs::distribution::Binomial::new(p, n).map_err(|_| StatsError::InvalidParameter {
+            name: "binomial success probability",
+            value: p,
+            expected: "a probability from 0 to 1",
+        })?;
+    Ok(statrs::distribution::DiscreteCDF::cdf(&binomial, k))
+}

@@ -11,7 +11,7 @@ use rand_pcg::Pcg64Mcg;
 use rayon::prelude::*;
 
 use super::noise::{estimate_effective_noise, NoiseScales};
-use super::penalty::{ar1_series, stream_seed};
+use super::penalty::{ar1_series, stream_seed, tolerance_bound, CALIBRATION_CONFIDENCE};
 use super::{check_positive, check_probability, StatsError};
 
 /// Two-sided tabular CUSUM on standardised values `z_t` (in-control mean 0, variance 1):
@@ -191,7 +191,8 @@ impl OnlineCalibrator {
     }
 
     /// The MEWMA whose threshold `h` makes a clean session (warm-up mean estimated as in
-    /// [`session_alarm`]) alarm with probability `false_alarm_rate`: the `1 − α` quantile of the
+    /// [`session_alarm`]) alarm with probability at most `false_alarm_rate`: Wilks' upper tolerance bound
+    /// (confidence [`CALIBRATION_CONFIDENCE`], see `penalty`) of the `1 − α` quantile of the
     /// session maximum of `T²` over simulated clean sessions ([`SessionNull`]). A session longer
     /// than `max_simulated_samples` is simulated at that length with the rate scaled by
     /// `n_sim/n` (a constant per-sample alarm hazard, i.e. a geometric run length).
@@ -217,8 +218,8 @@ impl OnlineCalibrator {
         };
         let maxima = self.null_maxima(&simulated);
         let rate = false_alarm_rate * simulated.n as f64 / null.n as f64;
-        let rank = ((1.0 - rate) * maxima.len() as f64).ceil() as usize;
-        Mewma::new(settings.lambda, maxima[rank.clamp(1, maxima.len()) - 1])
+        let bound = tolerance_bound(&maxima, rate, CALIBRATION_CONFIDENCE)?;
+        Mewma::new(settings.lambda, bound.value)
     }
 
     fn null_maxima(&self, null: &SessionNull) -> Arc<Vec<f64>> {

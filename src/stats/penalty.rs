@@ -15,6 +15,15 @@
 //! ([`NULL_LAG1_GRID`]) so that calibrations can be shared; the penalty grows with ρ, so rounding
 //! up errs towards fewer false alarms.
 //!
+//! The simulated quantile is itself uncertain (with 1000 runs at α = 0.01 its exceedance rate has
+//! a Monte Carlo standard error of about 0.3 points), so the penalty is not the plain `1 − α`
+//! quantile but a one-sided nonparametric tolerance bound (Wilks 1941, Ann. Math. Statist.
+//! 12:91-96): the order statistic with `j` runs above it, `j` the largest count with
+//! `P(Binomial(R, α) <= j) <= 1 − γ`. For a continuous null the true exceedance rate of that order
+//! statistic is Beta(j + 1, R − j) distributed, so it is at most α with confidence γ
+//! ([`CALIBRATION_CONFIDENCE`]); the expected rate is `(j + 1)/(R + 1)`, about half of α at
+//! R = 1000 and α = 0.01.
+//!
 //! Series longer than `max_simulated_samples` are simulated at that length and the rate is
 //! scaled by `ln(n_sim/m) / ln(n/m)`: the tail probability of the maximal likelihood-ratio scan
 //! grows like the logarithm of the range of segment lengths it covers (James, James & Siegmund
@@ -34,6 +43,7 @@ use rayon::prelude::*;
 
 use super::changepoint::pelt;
 use super::cost::{L2Cost, SegmentCost};
+use super::distributions::binomial_cdf;
 use super::noise::{estimate_effective_noise, NoiseScales};
 use super::{check_probability, StatsError};
 
@@ -52,6 +62,58 @@ pub fn null_lag1(data_upper: f64) -> (f64, bool) {
         Some(&g) => (g, false),
         None => (last, true),
     }
+}
+
+/// Confidence `γ` that a calibrated threshold's false-alarm rate is at most the rate asked for
+/// (see the module docs).
+pub const CALIBRATION_CONFIDENCE: f64 = 0.95;
+
+/// A threshold taken from simulated null values: how many runs lie above it and the confidence
+/// that its true exceedance rate is at most the rate asked for.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ToleranceBound {
+    pub value: f64,
+    /// Runs whose value is above the bound (`j`).
+    pub exceeding_runs: usize,
+    /// `1 − P(Binomial(R, α) <= j)`: the confidence reached (below `γ` only when even the
+    /// largest simulated value does not reach it: too few runs for so small a rate).
+    pub confidence: f64,
+}
+
+/// The one-sided nonparametric upper tolerance bound of Wilks (1941): from `sorted` (ascending)
+/// null values, the order statistic with the most runs `j` above it such that the probability
+/// that its true exceedance rate is above `rate` is at most `1 − confidence`
+/// (`P(Binomial(R, rate) <= j) <= 1 − confidence`); the largest value when no `j` qualifies.
+pub fn tolerance_bound(
+    sorted: &[f64],
+    rate: f64,
+    confidence: f64,
+) -> Result<ToleranceBound, StatsError> {
+    check_probability(rate)?;
+    check_probability(confidence)?;
+    let runs = sorted.len();
+    if runs == 0 {
+        return Err(StatsError::TooFewSamples {
+            what: "a tolerance bound (simulated null values)",
+            needed: 1,
+            got: 0,
+        });
+    }
+    let mut exceeding = 0;
+    let mut below = binomial_cdf(0, runs as u64, rate)?;
+    for j in 1..runs {
+        let next = binomial_cdf(j as u64, runs as u64, rate)?;
+        if next > 1.0 - confidence {
+            break;
+        }
+        exceeding = j;
+        below = next;
+    }
+    Ok(ToleranceBound {
+        value: sorted[runs - 1 - exceeding],
+        exceeding_runs: exceeding,
+        confidence: 1.0 - below,
+    })
 }
 
 /// How penalties are calibrated.
@@ -86,6 +148,10 @@ pub struct PenaltyCalibration {
     pub simulated_rate: f64,
     /// Monte Carlo standard error of the simulated rate, `√(a(1−a)/runs)`.
     pub rate_standard_error: f64,
+    /// Simulated runs whose critical penalty lies above the penalty, and the confidence that
+    /// the true rate is at most the simulated rate (Wilks' tolerance bound, module docs).
+    pub exceeding_runs: usize,
+    pub confidence: f64,
     /// Length of the series the penalty is for.
     pub n_samples: usize,
     /// Length of the simulated series.
@@ -312,11 +378,14 @@ impl PenaltyCalibrator {
         };
         let null = self.null_distribution(&key)?;
         let betas = null.sorted.clone();
+        let bound = tolerance_bound(&betas, rate, CALIBRATION_CONFIDENCE)?;
         Ok(PenaltyCalibration {
-            penalty: upper_quantile(&betas, rate),
+            penalty: bound.value,
             false_alarm_rate,
             simulated_rate: rate,
             rate_standard_error: (rate * (1.0 - rate) / self.settings.runs as f64).sqrt(),
+            exceeding_runs: bound.exceeding_runs,
+            confidence: bound.confidence,
             n_samples: n,
             simulated_samples: key.n,
             dim,

@@ -136,6 +136,7 @@ fn change_search() -> ChangeSearch {
         min_segment_frames: 30,
         false_alarm_rate: 0.01,
         calibration_runs: 200,
+        calibration_confidence: 0.95,
         noise_inflation: [1.3, 1.2, 1.4, 1.1, 1.2, 1.0],
     }
 }

@@ -205,6 +205,7 @@ fn change_search(drift: Option<&DriftAnalysis>, policy: &Policy) -> ChangeSearch
             min_segment_frames: 0,
             false_alarm_rate: policy.false_alarm_rate,
             calibration_runs: 0,
+            calibration_confidence: 0.0,
             noise_inflation: [0.0; 6],
         };
     };
@@ -217,6 +218,7 @@ fn change_search(drift: Option<&DriftAnalysis>, policy: &Policy) -> ChangeSearch
         min_segment_frames: d.min_segment_samples as u64,
         false_alarm_rate: d.penalty.false_alarm_rate,
         calibration_runs: d.penalty.runs as u64,
+        calibration_confidence: d.penalty.confidence,
         noise_inflation: std::array::from_fn(|i| factors[i]),
     }
 }

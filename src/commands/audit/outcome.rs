@@ -157,6 +157,9 @@ pub struct ChangeSearch {
     pub false_alarm_rate: f64,
     /// Null sessions simulated to set the penalty (0 when set analytically).
     pub calibration_runs: u64,
+    /// Confidence that the penalty's false-alarm rate is at most `false_alarm_rate`, given the
+    /// Monte Carlo error of the calibration (Wilks' tolerance bound; 0 when not calibrated).
+    pub calibration_confidence: f64,
     /// Ratio of the effective noise variance to the one the per-frame covariances predict, along
     /// the principal directions of the whitened deviation series, largest first (unobserved
     /// directions 0): above 1 when detections err alike frame to frame or the mount vibrates.
