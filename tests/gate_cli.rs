@@ -15,6 +15,26 @@ fn mountdrift() -> Command {
     cmd
 }
 
+/// Runs mountdrift with `args` and returns its output.
+fn run(args: &[&dyn AsRef<std::ffi::OsStr>]) -> std::process::Output {
+    mountdrift()
+        .args(args.iter().map(|a| a.as_ref()))
+        .output()
+        .unwrap()
+}
+
+/// The exit code of a run, with its output on failure.
+fn code(out: &std::process::Output) -> Option<i32> {
+    if !out.status.success() {
+        eprintln!(
+            "stdout:\n{}\nstderr:\n{}",
+            String::from_utf8_lossy(&out.stdout),
+            String::from_utf8_lossy(&out.stderr)
+        );
+    }
+    out.status.code()
+}
+
 /// A 20 s session of the `creep` installation (its ramp starts at 60 s: the mount holds still).
 fn simulate(dir: &Path, name: &str, seed: u64) -> PathBuf {
     let out = dir.join(name);
@@ -57,20 +77,8 @@ fn survey_feeds_audit_and_compare() {
     let mount = dir.path().join("surveyed.yaml");
 
     // Survey: exit 0 (20 s of frames meets the one-third precision rule at default tolerances).
-    let out = mountdrift()
-        .arg("survey")
-        .arg(&first)
-        .arg("--out")
-        .arg(&mount)
-        .arg("--json")
-        .output()
-        .unwrap();
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    let out = run(&[&"survey", &first, &"--out", &mount, &"--json"]);
+    assert_eq!(code(&out), Some(0));
     let report = json(&out.stdout);
     assert_eq!(report["schema"], "mountdrift.survey.v1");
     assert_eq!(report["precision"]["sufficient"], true);
@@ -94,18 +102,8 @@ fn survey_feeds_audit_and_compare() {
     );
     let audited = second.with_file_name("with_survey.yaml");
     fs::write(&audited, with_survey).unwrap();
-    let out = mountdrift()
-        .arg("audit")
-        .arg(&audited)
-        .arg("--json")
-        .output()
-        .unwrap();
-    assert_ne!(
-        out.status.code(),
-        Some(2),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    let out = run(&[&"audit", &audited, &"--json"]);
+    assert_ne!(code(&out), Some(2));
     let audit = json(&out.stdout);
     assert_eq!(
         audit["inputs"]["nominal_mount"]["position_m"],
@@ -113,19 +111,8 @@ fn survey_feeds_audit_and_compare() {
     );
 
     // Compare the survey (BEFORE) with the second session: unchanged, exit 0.
-    let out = mountdrift()
-        .arg("compare")
-        .arg(&mount)
-        .arg(&second)
-        .arg("--json")
-        .output()
-        .unwrap();
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stdout)
-    );
+    let out = run(&[&"compare", &mount, &second, &"--json"]);
+    assert_eq!(code(&out), Some(0));
     let compared = json(&out.stdout);
     assert_eq!(compared["outcome"], "unchanged");
     assert_eq!(compared["gate"], "pass");
@@ -146,15 +133,8 @@ fn survey_feeds_audit_and_compare() {
     let moved = dir.path().join("moved.yaml");
     shifted(&mount, 0.012, &moved);
     let report_dir = dir.path().join("gate");
-    let out = mountdrift()
-        .arg("compare")
-        .arg(&mount)
-        .arg(&moved)
-        .arg("--out")
-        .arg(&report_dir)
-        .output()
-        .unwrap();
-    assert_eq!(out.status.code(), Some(1));
+    let out = run(&[&"compare", &mount, &moved, &"--out", &report_dir]);
+    assert_eq!(code(&out), Some(1));
     let summary = String::from_utf8(out.stdout).unwrap();
     assert!(summary.starts_with("CHANGED"), "{summary}");
     for name in ["report.json", "report.html", "plot_change.svg"] {
@@ -180,12 +160,7 @@ fn survey_feeds_audit_and_compare() {
 fn bad_input_exits_2_naming_the_file() {
     let dir = tempfile::tempdir().unwrap();
     let missing = dir.path().join("no_such_session.yaml");
-    let out = mountdrift()
-        .arg("compare")
-        .arg(&missing)
-        .arg(&missing)
-        .output()
-        .unwrap();
+    let out = run(&[&"compare", &missing, &missing]);
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("no_such_session.yaml"));
 
@@ -196,12 +171,7 @@ fn bad_input_exits_2_naming_the_file() {
         "position_m: [1, 0, -1]\nyaw_deg: 0\npitch_deg: 0\nroll_deg: 0\n",
     )
     .unwrap();
-    let out = mountdrift()
-        .arg("compare")
-        .arg(&plain)
-        .arg(&plain)
-        .output()
-        .unwrap();
+    let out = run(&[&"compare", &plain, &plain]);
     assert_eq!(out.status.code(), Some(2));
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert!(

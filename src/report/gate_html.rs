@@ -11,7 +11,7 @@ use crate::commands::survey::GateWarning;
 use super::chart::colors;
 use super::format::{fixed, p_value, signed};
 use super::gate::{outcome_sentence, outcome_word};
-use super::html::{facts, figure, table, CAUTIONS};
+use super::html::{close_with_reasons, facts, figure, table, CAUTIONS};
 use super::scale::{Scale, Span};
 use super::svg::{coord, escape, Anchor, Stroke, Svg, TextStyle};
 
@@ -245,14 +245,7 @@ fn banner(outcome: &CompareOutcome) -> String {
         gate.to_uppercase(),
         escape(&outcome_sentence(outcome))
     );
-    if !outcome.reasons.is_empty() {
-        out.push_str("<ul>\n");
-        for r in &outcome.reasons {
-            out.push_str(&format!("<li>{}</li>\n", escape(r)));
-        }
-        out.push_str("</ul>\n");
-    }
-    out.push_str("</section>\n");
+    close_with_reasons(&mut out, &outcome.reasons);
     out
 }
 

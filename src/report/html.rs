@@ -98,15 +98,20 @@ fn verdict_banner(outcome: &AuditOutcome) -> String {
         escape(&verdict_sentence(outcome)),
         escape(&gate_pass_or_summary(outcome)),
     );
-    if !outcome.gate_reasons.is_empty() {
+    close_with_reasons(&mut out, &outcome.gate_reasons);
+    out
+}
+
+/// Ends a verdict section: the reasons as a list (none when empty), then the closing tag.
+pub(super) fn close_with_reasons(out: &mut String, reasons: &[String]) {
+    if !reasons.is_empty() {
         out.push_str("<ul>\n");
-        for reason in &outcome.gate_reasons {
+        for reason in reasons {
             out.push_str(&format!("<li>{}</li>\n", escape(reason)));
         }
         out.push_str("</ul>\n");
     }
     out.push_str("</section>\n");
-    out
 }
 
 /// The gate sentence; when it failed, the reasons follow as a list instead.
