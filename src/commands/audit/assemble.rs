@@ -417,7 +417,7 @@ fn truth_errors(setup: &Setup, solved: &Solved, policy: &Policy) -> Option<Truth
     let mut contact: [Vec<f64>; 2] = Default::default();
     let edges = range_bin_edges_m(policy.contact_range_m);
     let mut bins: Vec<[Vec<f64>; 2]> = vec![Default::default(); edges.len() - 1];
-    for (r, t) in solved.records.iter().zip(&solved.truth) {
+    for (r, t) in solved.records.iter().zip(&solved.true_vector_m) {
         let errors = true_errors(setup, r, t.as_ref());
         let range = r.dual_vector_m.map(|v| v.norm());
         let bin = range.and_then(|m| range_bin(&edges, m));
@@ -458,18 +458,18 @@ fn truth_errors(setup: &Setup, solved: &Solved, policy: &Policy) -> Option<Truth
 fn true_errors(
     setup: &Setup,
     record: &FrameRecord,
-    truth: Option<&crate::session::TruthRow>,
+    true_vector_m: Option<&nalgebra::Vector3<f64>>,
 ) -> (Option<f64>, Option<f64>) {
-    let Some(truth) = truth else {
+    let Some(truth_m) = true_vector_m else {
         return (None, None);
     };
     let dual = record
         .dual_vector_m
-        .map(|v| (v - truth.vector_m).norm() * 1000.0);
+        .map(|v| (v - truth_m).norm() * 1000.0);
     let fixed = setup
         .nominal
         .and_then(|m| record.vector_with_mount_m(&m, &setup.probe.reference_point()))
-        .map(|v| (v - truth.vector_m).norm() * 1000.0);
+        .map(|v| (v - truth_m).norm() * 1000.0);
     (dual, fixed)
 }
 
@@ -493,7 +493,7 @@ fn rows(
         .enumerate()
         .map(|(i, r)| {
             let test = sample_of[i].map(|s| analysis.frame_tests[s]);
-            let (true_dual, true_fixed) = true_errors(setup, r, solved.truth[i].as_ref());
+            let (true_dual, true_fixed) = true_errors(setup, r, solved.true_vector_m[i].as_ref());
             let vector = r.dual_vector_m;
             FrameRow {
                 frame: r.frame,
