@@ -9,7 +9,7 @@ use std::fs::File;
 use std::io::{self, BufReader, Cursor, Read};
 use std::path::{Path, PathBuf};
 
-use csv::{ByteRecord, ReaderBuilder, Trim};
+use csv::{ByteRecord, ReaderBuilder};
 
 use super::error::{Column, InputError, Problem};
 
@@ -93,10 +93,11 @@ impl CsvTable {
         line_offset: u64,
         spec: &TableSpec,
     ) -> Result<Self, InputError> {
+        // Fields are trimmed (ASCII whitespace) where they are read, not by the reader: the
+        // reader's own trimming builds a new record, two allocations, for every row.
         let reader = ReaderBuilder::new()
             .has_headers(false)
             .flexible(true)
-            .trim(Trim::All)
             .from_reader(input);
         let names: Vec<_> = spec.required.iter().chain(spec.optional).copied().collect();
         let mut table = Self {
@@ -122,6 +123,7 @@ impl CsvTable {
 
     fn map_header(&mut self, spec: &TableSpec) -> Result<(), InputError> {
         for (position, raw) in self.record.iter().enumerate() {
+            let raw = raw.trim_ascii();
             let raw = raw.strip_prefix(UTF8_BOM).unwrap_or(raw).trim_ascii();
             let name = String::from_utf8_lossy(raw);
             let Some(k) = self.names.iter().position(|n| *n == name) else {
@@ -195,9 +197,12 @@ impl CsvTable {
         &self.path
     }
 
-    /// The raw bytes of a column in the current row (`None`: optional column absent).
+    /// The bytes of a column in the current row without surrounding ASCII whitespace (`None`:
+    /// optional column absent).
     pub fn raw(&self, column: usize) -> Option<&[u8]> {
-        self.index[column].and_then(|i| self.record.get(i))
+        self.index[column]
+            .and_then(|i| self.record.get(i))
+            .map(<[u8]>::trim_ascii)
     }
 
     /// The text of a column in the current row (the column must exist).
@@ -263,5 +268,42 @@ pub(super) fn number(column: &'static str, value: f64) -> Result<String, CsvWrit
         Ok(value.to_string())
     } else {
         Err(CsvWriteError::NonFinite { column, value })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const SPEC: TableSpec = TableSpec {
+        required: &["frame", "u"],
+        optional: &["object"],
+        header: "frame,u[,object]",
+    };
+
+    fn table(text: &str) -> CsvTable {
+        let input = Box::new(Cursor::new(text.as_bytes().to_vec()));
+        CsvTable::from_reader(input, Path::new("t.csv"), 0, &SPEC).unwrap()
+    }
+
+    #[test]
+    fn fields_and_header_names_are_read_without_surrounding_whitespace() {
+        let mut t = table("\u{feff} frame ,\tu, object\n 7 ,  1.25\t, probe \n8,2,\n");
+        assert!(t.next_row().unwrap());
+        assert_eq!(t.count(0).unwrap(), 7);
+        assert_eq!(t.finite(1).unwrap(), 1.25);
+        assert_eq!(t.raw(2), Some(&b"probe"[..]));
+        assert_eq!(t.line(), 2);
+        assert!(t.next_row().unwrap());
+        assert_eq!(t.raw(2), Some(&b""[..]));
+        assert!(!t.next_row().unwrap());
+    }
+
+    #[test]
+    fn a_field_of_only_spaces_is_empty() {
+        let mut t = table("frame,u\n1,   \n");
+        assert!(t.next_row().unwrap());
+        assert_eq!(t.raw(1), Some(&b""[..]));
+        assert!(t.finite(1).is_err());
     }
 }
