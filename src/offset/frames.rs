@@ -150,11 +150,9 @@ impl FrameSolver<'_> {
             .estimate()
             .map(|e| point_in_camera(e, &self.drogue.reference_point()));
         let dual_vector_m = match (&deviation, &drogue_camera_m) {
-            (Some((mount, _, _)), Some(x_c)) => Some(vector_with_mount(
-                mount,
-                &self.probe.reference_point(),
-                x_c,
-            )),
+            (Some((mount, _, _)), Some(x_c)) => {
+                Some(vector_with_mount(mount, &self.probe.reference_point(), x_c))
+            }
             _ => None,
         };
         FrameRecord {

@@ -27,7 +27,7 @@ pub fn demo_row(frame: u64, total: u64, step: u64) -> FrameRow {
     let mut row = FrameRow {
         frame,
         time_s,
-        status: "ok".into(),
+        status: "ok",
         deviation: None,
         d2: None,
         dof: None,
@@ -41,7 +41,7 @@ pub fn demo_row(frame: u64, total: u64, step: u64) -> FrameRow {
         true_fixed_error_mm: None,
     };
     if frame % 60 == 59 {
-        row.status = "rejected:too_few_points".into();
+        row.status = "rejected:too_few_points";
         return row;
     }
     let base = if after { AFTER } else { BEFORE };
@@ -57,7 +57,7 @@ pub fn demo_row(frame: u64, total: u64, step: u64) -> FrameRow {
     row.segment = Some(u32::from(after));
     row.probe_fit = Some(1.25 + 0.9 * wobble(frame, 8));
     if frame % 97 == 5 {
-        row.status = "no_drogue:not_converged".into();
+        row.status = "no_drogue:not_converged";
         return row;
     }
     let range_m = 40.0 - 38.0 * progress + 0.3 * wobble(frame, 9);

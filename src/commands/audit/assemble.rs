@@ -463,9 +463,7 @@ fn true_errors(
     let Some(truth_m) = true_vector_m else {
         return (None, None);
     };
-    let dual = record
-        .dual_vector_m
-        .map(|v| (v - truth_m).norm() * 1000.0);
+    let dual = record.dual_vector_m.map(|v| (v - truth_m).norm() * 1000.0);
     let fixed = setup
         .nominal
         .and_then(|m| record.vector_with_mount_m(&m, &setup.probe.reference_point()))
@@ -498,11 +496,7 @@ fn rows(
             FrameRow {
                 frame: r.frame,
                 time_s: r.time_s,
-                status: frame_status(
-                    r.probe.map(|_| ()),
-                    r.drogue.map(|_| ()),
-                    screened[i],
-                ),
+                status: frame_status(r.probe.map(|_| ()), r.drogue.map(|_| ()), screened[i]),
                 deviation: r.deviation.map(|d| d.into()),
                 d2: setup.nominal.and(test.map(|t| t.statistic)),
                 dof: setup
