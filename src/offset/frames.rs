@@ -174,3 +174,17 @@ fn fit_or_reason(status: &PoseStatus) -> Result<Fit, RejectionReason> {
         PoseStatus::Rejected(r) => Err(r.reason),
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn records_stay_small() {
+        // Common practice for a type kept once per frame: a size guard, so growth is a
+        // decision (a million-frame session keeps a million records).
+        assert_eq!(std::mem::size_of::<Fit>(), 24);
+        assert_eq!(std::mem::size_of::<Result<Fit, RejectionReason>>(), 24);
+        assert!(std::mem::size_of::<FrameRecord>() <= 360);
+    }
+}
