@@ -87,7 +87,7 @@ fn main() {
                         frame: r.frame as i64,
                         time_s: r.time_s,
                         deviation: r.deviation?,
-                        covariance: r.deviation_covariance?,
+                        covariance: r.deviation_covariance?.to_matrix(),
                     })
                 })
                 .collect::<Vec<_>>();

@@ -10,6 +10,7 @@ use nalgebra::{Isometry3, Matrix3, Matrix6, Vector3, Vector6};
 
 use crate::geometry::{optical_in_boresight, skew, Mount, MountDeviation};
 use crate::pnp::PoseEstimate;
+use crate::stats::packed::PackedSym6;
 
 pub mod frames;
 
@@ -39,14 +40,19 @@ pub fn observed_mount(probe_pose: &Isometry3<f64>) -> Mount {
 /// boresight rotation `R_BS = Rᵀ Mpermᵀ` takes the right perturbation `ω = −Mperm δθ`, and the
 /// Z-Y-X angles of `ΔR = R_BS,refᵀ R_BS` move by `E(ypr) ω` with `E` the Euler-rate matrix.
 pub fn deviation_jacobian(probe_pose: &Isometry3<f64>, reference: &Mount) -> Matrix6<f64> {
+    let observed = observed_mount(probe_pose);
+    let ypr = MountDeviation::between(reference, &observed).rotation;
+    jacobian_at(probe_pose, &ypr)
+}
+
+/// [`deviation_jacobian`] given the Z-Y-X angles of the rotation deviation already computed.
+fn jacobian_at(probe_pose: &Isometry3<f64>, ypr: &crate::geometry::YawPitchRoll) -> Matrix6<f64> {
     let r_t = probe_pose
         .rotation
         .to_rotation_matrix()
         .matrix()
         .transpose();
     let t = probe_pose.translation.vector;
-    let observed = observed_mount(probe_pose);
-    let ypr = MountDeviation::between(reference, &observed).rotation;
     let d_angles = -ypr.rate_jacobian() * optical_in_boresight().matrix();
     let mut jac = Matrix6::zeros();
     jac.fixed_view_mut::<3, 3>(0, 0)
@@ -62,9 +68,7 @@ pub fn deviation_jacobian(probe_pose: &Isometry3<f64>, reference: &Mount) -> Mat
 /// The information is mapped as `J⁻ᵀ F J⁻¹` so an unobservable direction of the probe solution
 /// stays unobservable (zero information) instead of being inverted.
 pub fn mount_deviation(probe: &PoseEstimate, reference: &Mount) -> DeviationSample {
-    let observed = observed_mount(&probe.pose);
-    let value = MountDeviation::between(reference, &observed).to_report_vector();
-    let jac = deviation_jacobian(&probe.pose, reference);
+    let (_, value, jac) = deviation_and_jacobian(probe, reference);
     let covariance = jac * probe.covariance * jac.transpose();
     let information = jac
         .try_inverse()
@@ -78,6 +82,30 @@ pub fn mount_deviation(probe: &PoseEstimate, reference: &Mount) -> DeviationSamp
     }
 }
 
+/// What a frame record keeps of a probe solution: the observed mount, the deviation from
+/// `reference` in report units and its covariance (packed; the same values as
+/// [`mount_deviation`] gives, without the information the records do not keep).
+pub fn mount_deviation_packed(
+    probe: &PoseEstimate,
+    reference: &Mount,
+) -> (Mount, Vector6<f64>, PackedSym6) {
+    let (observed, value, jac) = deviation_and_jacobian(probe, reference);
+    let covariance = jac * probe.covariance * jac.transpose();
+    (observed, value, PackedSym6::from_matrix(&covariance))
+}
+
+/// The observed mount, its deviation from `reference` (report units) and the Jacobian of that
+/// deviation, sharing one inversion of the pose and one deviation between them.
+fn deviation_and_jacobian(
+    probe: &PoseEstimate,
+    reference: &Mount,
+) -> (Mount, Vector6<f64>, Matrix6<f64>) {
+    let observed = observed_mount(&probe.pose);
+    let deviation = MountDeviation::between(reference, &observed);
+    let jac = jacobian_at(&probe.pose, &deviation.rotation);
+    (observed, deviation.to_report_vector(), jac)
+}
+
 /// A point of the drogue model expressed in the camera frame, with its 3x3 covariance from the
 /// drogue solution: `x_C = R p + t`, `∂x_C/∂δθ = −[R p]x`, `∂x_C/∂δt = I`.
 pub fn drogue_point_in_camera(
@@ -85,10 +113,16 @@ pub fn drogue_point_in_camera(
     p_d: &Vector3<f64>,
 ) -> (Vector3<f64>, Matrix3<f64>) {
     let rotated = drogue.pose.rotation * p_d;
-    let x_c = rotated + drogue.pose.translation.vector;
+    let x_c = point_in_camera(drogue, p_d);
     let jac = point_jacobian(&(-skew(&rotated)), &Matrix3::identity());
     let cov = jac * drogue.covariance * jac.transpose();
     (x_c, symmetrize3(&cov))
+}
+
+/// A point of the drogue model expressed in the camera frame, `x_C = R p + t` (m), without
+/// its covariance.
+pub fn point_in_camera(drogue: &PoseEstimate, p_d: &Vector3<f64>) -> Vector3<f64> {
+    drogue.pose.rotation * p_d + drogue.pose.translation.vector
 }
 
 /// Dual-object probe-to-drogue vector in body axes: the drogue point `x_C` mapped with the

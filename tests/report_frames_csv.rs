@@ -113,7 +113,7 @@ fn round_trip_through_the_csv_crate() {
 #[test]
 fn statuses_with_commas_are_quoted() {
     let mut rows = report_demo::demo_rows(1, 1);
-    rows[0].status = "rejected:odd, reason".into();
+    rows[0].status = "rejected:odd, reason";
     let text = csv_text(&rows);
     let mut reader = csv::Reader::from_reader(text.as_bytes());
     let record = reader.records().next().unwrap().unwrap();

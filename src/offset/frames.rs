@@ -5,7 +5,7 @@
 //! previous frame's. Block boundaries depend only on frame order, so results do not depend on
 //! thread scheduling.
 
-use nalgebra::{Isometry3, Matrix6, Vector3, Vector6};
+use nalgebra::{Isometry3, Vector3, Vector6};
 use rayon::prelude::*;
 
 use crate::camera::Camera;
@@ -13,80 +13,83 @@ use crate::geometry::Mount;
 use crate::model::KeypointModel;
 use crate::pnp::{solve_pose, PnpOptions, PoseEstimate, PoseStatus, RejectionReason};
 use crate::session::FrameDetections;
+use crate::stats::packed::PackedSym6;
 
-use super::{drogue_point_in_camera, mount_deviation, observed_mount};
+use super::{mount_deviation_packed, point_in_camera, vector_with_mount};
 
 /// Frames per warm-start block: long enough that cold starts are rare, short enough to keep
 /// both cores busy on a few thousand frames.
 const BLOCK_FRAMES: usize = 64;
 
-/// Fit summary of one solved object.
+/// Fit summary of one solved object (24 bytes: counts are small, kept in small integers).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Fit {
     /// Weighted reprojection chi-square over inliers, and its degrees of freedom.
     pub chi2: f64,
     pub dof: usize,
-    pub keypoints: usize,
-    pub inliers: usize,
-    pub rank: usize,
+    pub keypoints: u16,
+    pub inliers: u16,
+    pub rank: u8,
     pub ill_conditioned: bool,
     pub ambiguous: bool,
 }
 
 impl Fit {
     fn of(estimate: &PoseEstimate) -> Self {
+        let inliers = estimate.inliers.iter().filter(|&&b| b).count();
         Self {
             chi2: estimate.chi2,
             dof: estimate.dof,
-            keypoints: estimate.inliers.len(),
-            inliers: estimate.inliers.iter().filter(|&&b| b).count(),
-            rank: estimate.rank,
+            keypoints: small_count(estimate.inliers.len()),
+            inliers: small_count(inliers),
+            rank: estimate.rank.min(usize::from(u8::MAX)) as u8,
             ill_conditioned: estimate.ill_conditioned,
             ambiguous: estimate.ambiguous,
         }
     }
+
+    /// Keypoints dropped as outliers.
+    pub fn outliers(&self) -> u64 {
+        u64::from(self.keypoints - self.inliers)
+    }
 }
 
-/// Everything later stages need from one frame.
+/// A keypoint count in 16 bits (a model has far fewer points; saturates rather than wraps).
+fn small_count(n: usize) -> u16 {
+    u16::try_from(n).unwrap_or(u16::MAX)
+}
+
+/// Everything later stages need from one frame (about 360 bytes: a long session keeps one per
+/// frame until the report rows are built).
 #[derive(Debug, Clone, PartialEq)]
 pub struct FrameRecord {
     pub frame: u64,
     pub time_s: f64,
     pub probe: Result<Fit, RejectionReason>,
     pub drogue: Result<Fit, RejectionReason>,
-    /// The observed mount (from the probe solution).
-    pub observed_mount: Option<Mount>,
-    /// Deviation from the reference mount in report units (mm, deg) and its covariance
+    /// Deviation from the reference mount in report units (mm, deg) and its covariance, packed
     /// (singular where the probe solution leaves a direction unobservable); present when the
     /// probe was solved.
     pub deviation: Option<Vector6<f64>>,
-    pub deviation_covariance: Option<Matrix6<f64>>,
+    pub deviation_covariance: Option<PackedSym6>,
     /// The drogue reference point in the camera frame (m); present when the drogue was solved.
     pub drogue_camera_m: Option<Vector3<f64>>,
-    /// The probe reference point in body axes (m), constant; kept so records stand alone.
-    pub probe_reference_b: Vector3<f64>,
+    /// The dual-object probe-to-drogue vector in body axes (m): the drogue point mapped with
+    /// the frame's observed mount, minus the probe reference point; present when both objects
+    /// were solved.
+    pub dual_vector_m: Option<Vector3<f64>>,
 }
 
 impl FrameRecord {
-    /// The dual-object probe-to-drogue vector in body axes (m), when both objects were solved.
-    pub fn dual_vector_m(&self) -> Option<Vector3<f64>> {
-        let mount = self.observed_mount?;
+    /// The vector a pipeline assuming `mount` would report (m), when the drogue was solved;
+    /// `probe_reference_b` is the probe model's reference point in body axes (m).
+    pub fn vector_with_mount_m(
+        &self,
+        mount: &Mount,
+        probe_reference_b: &Vector3<f64>,
+    ) -> Option<Vector3<f64>> {
         let x_c = self.drogue_camera_m?;
-        Some(super::vector_with_mount(
-            &mount,
-            &self.probe_reference_b,
-            &x_c,
-        ))
-    }
-
-    /// The vector a pipeline assuming `mount` would report (m), when the drogue was solved.
-    pub fn vector_with_mount_m(&self, mount: &Mount) -> Option<Vector3<f64>> {
-        let x_c = self.drogue_camera_m?;
-        Some(super::vector_with_mount(
-            mount,
-            &self.probe_reference_b,
-            &x_c,
-        ))
+        Some(super::vector_with_mount(mount, probe_reference_b, &x_c))
     }
 }
 
@@ -142,20 +145,25 @@ impl FrameSolver<'_> {
         warm.drogue = drogue.estimate().map(|e| e.pose);
         let deviation = probe
             .estimate()
-            .map(|e| mount_deviation(e, &self.reference));
+            .map(|e| mount_deviation_packed(e, &self.reference));
         let drogue_camera_m = drogue
             .estimate()
-            .map(|e| drogue_point_in_camera(e, &self.drogue.reference_point()).0);
+            .map(|e| point_in_camera(e, &self.drogue.reference_point()));
+        let dual_vector_m = match (&deviation, &drogue_camera_m) {
+            (Some((mount, _, _)), Some(x_c)) => {
+                Some(vector_with_mount(mount, &self.probe.reference_point(), x_c))
+            }
+            _ => None,
+        };
         FrameRecord {
             frame: det.frame,
             time_s: det.time_s,
             probe: fit_or_reason(&probe),
             drogue: fit_or_reason(&drogue),
-            observed_mount: probe.estimate().map(|e| observed_mount(&e.pose)),
-            deviation: deviation.as_ref().map(|d| d.value),
-            deviation_covariance: deviation.map(|d| d.covariance),
+            deviation: deviation.map(|d| d.1),
+            deviation_covariance: deviation.map(|d| d.2),
             drogue_camera_m,
-            probe_reference_b: self.probe.reference_point(),
+            dual_vector_m,
         }
     }
 }
@@ -164,5 +172,19 @@ fn fit_or_reason(status: &PoseStatus) -> Result<Fit, RejectionReason> {
     match status {
         PoseStatus::Solved(e) => Ok(Fit::of(e)),
         PoseStatus::Rejected(r) => Err(r.reason),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn records_stay_small() {
+        // Common practice for a type kept once per frame: a size guard, so growth is a
+        // decision (a million-frame session keeps a million records).
+        assert_eq!(std::mem::size_of::<Fit>(), 24);
+        assert_eq!(std::mem::size_of::<Result<Fit, RejectionReason>>(), 24);
+        assert!(std::mem::size_of::<FrameRecord>() <= 360);
     }
 }

@@ -276,7 +276,7 @@ const FAR_OUT_IQR: f64 = 3.0;
 /// can throw one frame's mount by decimetres) would otherwise squash every estimate and band
 /// into one line; the frames beyond are drawn on the frame's edge and counted. Layout only.
 fn deviation_y_span(outcome: &AuditOutcome, axis: usize) -> Option<Span> {
-    let mut by_segment: BTreeMap<Option<u64>, Vec<f64>> = BTreeMap::new();
+    let mut by_segment: BTreeMap<Option<u32>, Vec<f64>> = BTreeMap::new();
     for r in &outcome.rows {
         if let Some(v) = r.deviation.map(|d| d[axis]).filter(|v| v.is_finite()) {
             by_segment.entry(r.segment).or_default().push(v);

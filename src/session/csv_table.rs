@@ -9,7 +9,7 @@ use std::fs::File;
 use std::io::{self, BufReader, Cursor, Read};
 use std::path::{Path, PathBuf};
 
-use csv::{ByteRecord, ReaderBuilder, Trim};
+use csv::{ByteRecord, ReaderBuilder};
 
 use super::error::{Column, InputError, Problem};
 
@@ -93,10 +93,11 @@ impl CsvTable {
         line_offset: u64,
         spec: &TableSpec,
     ) -> Result<Self, InputError> {
+        // Fields are trimmed (ASCII whitespace) where they are read, not by the reader: the
+        // reader's own trimming builds a new record, two allocations, for every row.
         let reader = ReaderBuilder::new()
             .has_headers(false)
             .flexible(true)
-            .trim(Trim::All)
             .from_reader(input);
         let names: Vec<_> = spec.required.iter().chain(spec.optional).copied().collect();
         let mut table = Self {
@@ -122,6 +123,7 @@ impl CsvTable {
 
     fn map_header(&mut self, spec: &TableSpec) -> Result<(), InputError> {
         for (position, raw) in self.record.iter().enumerate() {
+            let raw = raw.trim_ascii();
             let raw = raw.strip_prefix(UTF8_BOM).unwrap_or(raw).trim_ascii();
             let name = String::from_utf8_lossy(raw);
             let Some(k) = self.names.iter().position(|n| *n == name) else {
@@ -195,9 +197,12 @@ impl CsvTable {
         &self.path
     }
 
-    /// The raw bytes of a column in the current row (`None`: optional column absent).
+    /// The bytes of a column in the current row without surrounding ASCII whitespace (`None`:
+    /// optional column absent).
     pub fn raw(&self, column: usize) -> Option<&[u8]> {
-        self.index[column].and_then(|i| self.record.get(i))
+        self.index[column]
+            .and_then(|i| self.record.get(i))
+            .map(<[u8]>::trim_ascii)
     }
 
     /// The text of a column in the current row (the column must exist).
@@ -211,6 +216,9 @@ impl CsvTable {
 
     /// A finite number.
     pub fn finite(&self, column: usize) -> Result<f64, InputError> {
+        if let Some(value) = self.raw(column).and_then(plain_decimal) {
+            return Ok(value);
+        }
         let text = self.text(column)?;
         match text.parse::<f64>() {
             Ok(value) if value.is_finite() => Ok(value),
@@ -220,6 +228,9 @@ impl CsvTable {
 
     /// A non-negative whole number (frame numbers).
     pub fn count(&self, column: usize) -> Result<u64, InputError> {
+        if let Some(value) = self.raw(column).and_then(plain_count) {
+            return Ok(value);
+        }
         let text = self.text(column)?;
         text.parse::<u64>().map_err(|_| {
             let expected = "a whole number of 0 or more";
@@ -246,6 +257,62 @@ impl CsvTable {
     }
 }
 
+/// Largest integer below which every integer is an `f64`: `2^53`.
+const EXACT_INTEGER_LIMIT: u64 = 1 << 53;
+
+/// Powers of ten that are exact `f64` values (`10^22 < 2^53 · 2^22`).
+const EXACT_POWERS_OF_TEN: [f64; 23] = [
+    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
+    1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
+];
+
+/// The value of a plain decimal (`[-]digits[.digits]`, at least one digit) whose digits, read
+/// as one integer `m`, stay below `2^53`, with at most 22 of them after the point: then `m` and
+/// `10^k` are exact and the one division `m / 10^k` is correctly rounded, so the result is the
+/// one `str::parse::<f64>` gives (Clinger, "How to read floating point numbers accurately",
+/// PLDI 1990, the exact fast path). `None` for anything else; the caller then parses the text.
+fn plain_decimal(bytes: &[u8]) -> Option<f64> {
+    let (negative, body) = match bytes.split_first() {
+        Some((b'-', rest)) => (true, rest),
+        _ => (false, bytes),
+    };
+    let mut mantissa: u64 = 0;
+    let mut digits = 0usize;
+    let mut decimals = None;
+    for (i, &b) in body.iter().enumerate() {
+        match b {
+            b'0'..=b'9' => {
+                mantissa = mantissa * 10 + u64::from(b - b'0');
+                if mantissa >= EXACT_INTEGER_LIMIT {
+                    return None;
+                }
+                digits += 1;
+            }
+            b'.' if decimals.is_none() => decimals = Some(i),
+            _ => return None,
+        }
+    }
+    if digits == 0 {
+        return None;
+    }
+    let after_point = decimals.map_or(0, |i| body.len() - i - 1);
+    let scale = EXACT_POWERS_OF_TEN.get(after_point)?;
+    let magnitude = mantissa as f64 / scale;
+    Some(if negative { -magnitude } else { magnitude })
+}
+
+/// The value of a whole number written as plain digits that fits in a `u64`; `None` for
+/// anything else (the caller then parses the text).
+fn plain_count(bytes: &[u8]) -> Option<u64> {
+    if bytes.is_empty() {
+        return None;
+    }
+    bytes.iter().try_fold(0u64, |n, &b| {
+        let digit = b.checked_sub(b'0').filter(|d| *d <= 9)?;
+        n.checked_mul(10)?.checked_add(u64::from(digit))
+    })
+}
+
 /// Why a CSV could not be written.
 #[derive(Debug, thiserror::Error)]
 pub enum CsvWriteError {
@@ -263,5 +330,113 @@ pub(super) fn number(column: &'static str, value: f64) -> Result<String, CsvWrit
         Ok(value.to_string())
     } else {
         Err(CsvWriteError::NonFinite { column, value })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const SPEC: TableSpec = TableSpec {
+        required: &["frame", "u"],
+        optional: &["object"],
+        header: "frame,u[,object]",
+    };
+
+    fn table(text: &str) -> CsvTable {
+        let input = Box::new(Cursor::new(text.as_bytes().to_vec()));
+        CsvTable::from_reader(input, Path::new("t.csv"), 0, &SPEC).unwrap()
+    }
+
+    #[test]
+    fn fields_and_header_names_are_read_without_surrounding_whitespace() {
+        let mut t = table("\u{feff} frame ,\tu, object\n 7 ,  1.25\t, probe \n8,2,\n");
+        assert!(t.next_row().unwrap());
+        assert_eq!(t.count(0).unwrap(), 7);
+        assert_eq!(t.finite(1).unwrap().to_bits(), 1.25f64.to_bits());
+        assert_eq!(t.raw(2), Some(&b"probe"[..]));
+        assert_eq!(t.line(), 2);
+        assert!(t.next_row().unwrap());
+        assert_eq!(t.raw(2), Some(&b""[..]));
+        assert!(!t.next_row().unwrap());
+    }
+
+    #[test]
+    fn plain_decimals_read_as_the_standard_parser_reads_them() {
+        // The reference is the standard library's correctly rounded parser.
+        let mut texts: Vec<String> = [
+            "0",
+            "-0",
+            "0.0",
+            "-0.000",
+            "1.",
+            ".5",
+            "-.5",
+            "007.250",
+            "652.3183936398212",
+            "9007199254740991",
+            "9007199254740992",
+            "0.1",
+            "0.30000000000000004",
+            "123456789.012345",
+            "1e5",
+            "+1",
+            "-",
+            ".",
+            "1.2.3",
+            "",
+            "1,5",
+            "nan",
+            "inf",
+            "0.0000000000000000000001",
+            "0.00000000000000000000001",
+            " 1",
+        ]
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
+        // Shortest round-trip texts and fixed-decimal texts of many magnitudes.
+        let mut x = 0.123_456_789_f64;
+        for k in 0..400 {
+            x = (x * 7.31 + 0.017 * k as f64) % 5000.0 - 1200.0;
+            texts.push(x.to_string());
+            texts.push(format!("{:.2}", x));
+            texts.push(format!("{:.6}", x / 1000.0));
+            texts.push((x * 1e-9).to_string());
+        }
+        for text in &texts {
+            let fast = plain_decimal(text.as_bytes());
+            let reference = text.parse::<f64>().ok();
+            if let Some(v) = fast {
+                let r = reference.expect("the fast path accepts only what the parser accepts");
+                assert_eq!(v.to_bits(), r.to_bits(), "{text}");
+            }
+        }
+        // The common forms take the fast path.
+        assert_eq!(plain_decimal(b"652.3183936398212"), Some(652.3183936398212));
+        assert_eq!(
+            plain_decimal(b"-0").map(f64::to_bits),
+            Some((-0.0f64).to_bits())
+        );
+        assert_eq!(plain_decimal(b"1e5"), None);
+        assert_eq!(plain_decimal(b"9007199254740992"), None);
+    }
+
+    #[test]
+    fn plain_counts_read_as_the_standard_parser_reads_them() {
+        for text in ["0", "17", "0042", "18446744073709551615"] {
+            assert_eq!(plain_count(text.as_bytes()), text.parse::<u64>().ok());
+        }
+        for text in ["", "+3", "-1", "1.0", "18446744073709551616", " 1"] {
+            assert_eq!(plain_count(text.as_bytes()), None);
+        }
+    }
+
+    #[test]
+    fn a_field_of_only_spaces_is_empty() {
+        let mut t = table("frame,u\n1,   \n");
+        assert!(t.next_row().unwrap());
+        assert_eq!(t.raw(1), Some(&b""[..]));
+        assert!(t.finite(1).is_err());
     }
 }

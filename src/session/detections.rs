@@ -193,10 +193,13 @@ impl DetectionReader {
                 return Err(self.row_error(&row, "time_s", problem));
             }
         }
+        // Room for every point of each model: one allocation per object and frame, none on
+        // the way.
         let mut frame = FrameDetections {
             frame: row.frame,
             time_s: row.time_s,
-            ..FrameDetections::default()
+            probe: Vec::with_capacity(self.probe.ids.len()),
+            drogue: Vec::with_capacity(self.drogue.ids.len()),
         };
         self.add(&mut frame, row)?;
         Ok(frame)

@@ -18,7 +18,6 @@ pub fn wobble(frame: u64, channel: u64) -> f64 {
 const BEFORE: [f64; 6] = [0.3, -0.2, 0.5, 0.01, 0.005, -0.01];
 const AFTER: [f64; 6] = [4.5, -1.7, 1.3, 0.19, -0.055, 0.01];
 const SPREAD: [f64; 6] = [1.2, 1.0, 2.5, 0.03, 0.03, 0.05];
-const SIGMA: [f64; 6] = [0.6, 0.5, 1.2, 0.015, 0.015, 0.025];
 
 /// One frame of a session of `total` frames whose mount steps at `step`.
 pub fn demo_row(frame: u64, total: u64, step: u64) -> FrameRow {
@@ -28,9 +27,8 @@ pub fn demo_row(frame: u64, total: u64, step: u64) -> FrameRow {
     let mut row = FrameRow {
         frame,
         time_s,
-        status: "ok".into(),
+        status: "ok",
         deviation: None,
-        deviation_sigma: None,
         d2: None,
         dof: None,
         vector_m: None,
@@ -43,24 +41,23 @@ pub fn demo_row(frame: u64, total: u64, step: u64) -> FrameRow {
         true_fixed_error_mm: None,
     };
     if frame % 60 == 59 {
-        row.status = "rejected:too_few_points".into();
+        row.status = "rejected:too_few_points";
         return row;
     }
     let base = if after { AFTER } else { BEFORE };
     let deviation: [f64; 6] =
         std::array::from_fn(|k| base[k] + 2.0 * SPREAD[k] * wobble(frame, k as u64));
     row.deviation = Some(deviation);
-    row.deviation_sigma = Some(SIGMA);
     row.d2 = Some(if after {
         45.0 + 60.0 * wobble(frame, 7)
     } else {
         6.0 + 10.0 * wobble(frame, 7)
     });
     row.dof = Some(6);
-    row.segment = Some(u64::from(after));
+    row.segment = Some(u32::from(after));
     row.probe_fit = Some(1.25 + 0.9 * wobble(frame, 8));
     if frame % 97 == 5 {
-        row.status = "no_drogue:not_converged".into();
+        row.status = "no_drogue:not_converged";
         return row;
     }
     let range_m = 40.0 - 38.0 * progress + 0.3 * wobble(frame, 9);

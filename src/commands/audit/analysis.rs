@@ -135,7 +135,7 @@ fn deviation_samples(solved: &Solved) -> (Vec<usize>, Vec<DeviationSample>) {
                 frame: r.frame as i64,
                 time_s: r.time_s,
                 deviation: r.deviation?,
-                covariance: r.deviation_covariance?,
+                covariance: r.deviation_covariance?.to_matrix(),
             };
             Some((i, sample))
         })

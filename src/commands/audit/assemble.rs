@@ -2,12 +2,13 @@
 //! and segments in report units, the fixed-offset error from each segment's mount, truth errors,
 //! verdict, gate and warnings.
 
-use std::collections::BTreeMap;
+use std::collections::HashMap;
 
 use nalgebra::Vector6;
 
 use crate::offset::fixed_offset_error;
 use crate::offset::frames::FrameRecord;
+use crate::pnp::RejectionReason;
 use crate::session::{MountFile, Policy};
 use crate::stats::drift::{DriftAnalysis, SegmentEstimate};
 use crate::stats::segments::shift_between;
@@ -117,43 +118,35 @@ fn frame_counts(records: &[FrameRecord]) -> FrameCounts {
         total: records.len() as u64,
         ..FrameCounts::default()
     };
-    let mut reasons: BTreeMap<String, u64> = BTreeMap::new();
+    let mut reasons: HashMap<(&str, RejectionReason), u64> = HashMap::new();
     for r in records {
         match &r.probe {
             Ok(fit) => {
                 counts.solved += 1;
                 counts.probe_ill_conditioned += u64::from(fit.ill_conditioned);
-                counts.outlier_keypoints += (fit.keypoints - fit.inliers) as u64;
+                counts.outlier_keypoints += fit.outliers();
             }
             Err(reason) => {
                 counts.rejected += 1;
-                *reasons
-                    .entry(format!("probe: {}", reason_name(*reason)))
-                    .or_default() += 1;
+                *reasons.entry(("probe", *reason)).or_default() += 1;
             }
         }
         match &r.drogue {
             Ok(fit) => {
                 counts.drogue_ambiguous += u64::from(fit.ambiguous);
-                counts.outlier_keypoints += (fit.keypoints - fit.inliers) as u64;
+                counts.outlier_keypoints += fit.outliers();
                 counts.both_solved += u64::from(r.probe.is_ok());
             }
             Err(reason) => {
-                *reasons
-                    .entry(format!("drogue: {}", reason_name(*reason)))
-                    .or_default() += 1;
+                *reasons.entry(("drogue", *reason)).or_default() += 1;
             }
         }
     }
-    counts.rejected_by_reason = reasons;
+    counts.rejected_by_reason = reasons
+        .into_iter()
+        .map(|((object, reason), n)| (format!("{object}: {}", rejection_name(reason)), n))
+        .collect();
     counts
-}
-
-pub fn reason_name(reason: crate::pnp::RejectionReason) -> String {
-    serde_json::to_value(reason)
-        .ok()
-        .and_then(|v| v.as_str().map(str::to_string))
-        .unwrap_or_else(|| format!("{reason:?}"))
 }
 
 fn pixel_sigma(setup: &Setup, analysis: &Analysis) -> PixelSigmaCheck {
@@ -386,7 +379,7 @@ fn fixed_offset(solved: &Solved, errors: &FrameErrors, policy: &Policy) -> Fixed
     let edges = range_bin_edges_m(policy.contact_range_m);
     let mut bins: Vec<Vec<f64>> = vec![Vec::new(); edges.len() - 1];
     for (r, e) in solved.records.iter().zip(&errors.fixed_mm) {
-        let (Some(e), Some(range)) = (*e, r.dual_vector_m().map(|v| v.norm())) else {
+        let (Some(e), Some(range)) = (*e, r.dual_vector_m.map(|v| v.norm())) else {
             continue;
         };
         max_error = max_error.max(e);
@@ -426,9 +419,9 @@ fn truth_errors(setup: &Setup, solved: &Solved, policy: &Policy) -> Option<Truth
     let mut contact: [Vec<f64>; 2] = Default::default();
     let edges = range_bin_edges_m(policy.contact_range_m);
     let mut bins: Vec<[Vec<f64>; 2]> = vec![Default::default(); edges.len() - 1];
-    for (r, t) in solved.records.iter().zip(&solved.truth) {
+    for (r, t) in solved.records.iter().zip(&solved.true_vector_m) {
         let errors = true_errors(setup, r, t.as_ref());
-        let range = r.dual_vector_m().map(|v| v.norm());
+        let range = r.dual_vector_m.map(|v| v.norm());
         let bin = range.and_then(|m| range_bin(&edges, m));
         for (k, e) in [errors.0, errors.1].into_iter().enumerate() {
             let Some(e) = e else { continue };
@@ -467,18 +460,16 @@ fn truth_errors(setup: &Setup, solved: &Solved, policy: &Policy) -> Option<Truth
 fn true_errors(
     setup: &Setup,
     record: &FrameRecord,
-    truth: Option<&crate::session::TruthRow>,
+    true_vector_m: Option<&nalgebra::Vector3<f64>>,
 ) -> (Option<f64>, Option<f64>) {
-    let Some(truth) = truth else {
+    let Some(truth_m) = true_vector_m else {
         return (None, None);
     };
-    let dual = record
-        .dual_vector_m()
-        .map(|v| (v - truth.vector_m).norm() * 1000.0);
+    let dual = record.dual_vector_m.map(|v| (v - truth_m).norm() * 1000.0);
     let fixed = setup
         .nominal
-        .and_then(|m| record.vector_with_mount_m(&m))
-        .map(|v| (v - truth.vector_m).norm() * 1000.0);
+        .and_then(|m| record.vector_with_mount_m(&m, &setup.probe.reference_point()))
+        .map(|v| (v - truth_m).norm() * 1000.0);
     (dual, fixed)
 }
 
@@ -502,26 +493,21 @@ fn rows(
         .enumerate()
         .map(|(i, r)| {
             let test = sample_of[i].map(|s| analysis.frame_tests[s]);
-            let (true_dual, true_fixed) = true_errors(setup, r, solved.truth[i].as_ref());
-            let vector = r.dual_vector_m();
+            let (true_dual, true_fixed) = true_errors(setup, r, solved.true_vector_m[i].as_ref());
+            let vector = r.dual_vector_m;
             FrameRow {
                 frame: r.frame,
                 time_s: r.time_s,
-                status: if screened[i] {
-                    "gross_error".to_string()
-                } else {
-                    status(r)
-                },
+                status: frame_status(r.probe.map(|_| ()), r.drogue.map(|_| ()), screened[i]),
                 deviation: r.deviation.map(|d| d.into()),
-                deviation_sigma: r
-                    .deviation_covariance
-                    .map(|c| std::array::from_fn(|k| c[(k, k)].max(0.0).sqrt())),
                 d2: setup.nominal.and(test.map(|t| t.statistic)),
-                dof: setup.nominal.and(test.map(|t| t.dof as u64)),
+                dof: setup
+                    .nominal
+                    .and(test.map(|t| u8::try_from(t.dof).unwrap_or(u8::MAX))),
                 vector_m: vector.map(|v| v.into()),
                 range_m: vector.map(|v| v.norm()),
                 fixed_error_mm: errors.fixed_mm[i],
-                segment: errors.segment[i].map(|k| k as u64),
+                segment: errors.segment[i].map(|k| u32::try_from(k).unwrap_or(u32::MAX)),
                 probe_fit: r.probe.as_ref().ok().and_then(fit_ratio),
                 drogue_fit: r.drogue.as_ref().ok().and_then(fit_ratio),
                 true_dual_error_mm: true_dual,
@@ -533,14 +519,6 @@ fn rows(
 
 fn fit_ratio(f: &crate::offset::frames::Fit) -> Option<f64> {
     (f.dof > 0).then(|| f.chi2 / f.dof as f64)
-}
-
-fn status(r: &FrameRecord) -> String {
-    match (&r.probe, &r.drogue) {
-        (Ok(_), Ok(_)) => "ok".to_string(),
-        (Ok(_), Err(reason)) => format!("no_drogue:{}", reason_name(*reason)),
-        (Err(reason), _) => format!("rejected:{}", reason_name(*reason)),
-    }
 }
 
 #[cfg(test)]

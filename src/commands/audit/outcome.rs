@@ -9,6 +9,7 @@ use std::collections::BTreeMap;
 use serde::Serialize;
 
 use crate::camera::Camera;
+use crate::pnp::RejectionReason;
 use crate::session::{MountFile, Policy};
 
 /// Version of the report layout; bump when a field changes meaning or disappears.
@@ -294,30 +295,114 @@ pub enum WarningCode {
     FewFrames,
 }
 
-/// One frame as written to `frames.csv` and drawn in the plots.
+/// One frame as written to `frames.csv` and drawn in the plots (about 250 bytes, nothing on the
+/// heap: a long session keeps one per frame).
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct FrameRow {
     pub frame: u64,
     pub time_s: f64,
     /// `ok`, `no_drogue:<reason>`, `rejected:<reason>` or `gross_error` (solved, but set aside
-    /// before the tests).
-    pub status: String,
+    /// before the tests); see [`frame_status`].
+    pub status: &'static str,
     /// Deviation from the nominal (or first segment): x, y, z mm, yaw, pitch, roll deg.
     pub deviation: Option<[f64; 6]>,
-    /// Its one-sigma per axis (same units), for bands in plots.
-    pub deviation_sigma: Option<[f64; 6]>,
     pub d2: Option<f64>,
-    pub dof: Option<u64>,
+    pub dof: Option<u8>,
     /// Dual-object probe-to-drogue vector in body axes, m, and its length.
     pub vector_m: Option<[f64; 3]>,
     pub range_m: Option<f64>,
     /// Fixed-offset error from the segment's mount estimate, mm.
     pub fixed_error_mm: Option<f64>,
-    pub segment: Option<u64>,
+    pub segment: Option<u32>,
     /// Reprojection chi-square per degree of freedom (1 when the stated sigma holds).
     pub probe_fit: Option<f64>,
     pub drogue_fit: Option<f64>,
     /// With truth: errors of the dual-object and fixed-offset vectors, mm.
     pub true_dual_error_mm: Option<f64>,
     pub true_fixed_error_mm: Option<f64>,
+}
+
+/// The status text of a frame: `gross_error` when screened out, else from how each object fared.
+pub fn frame_status(
+    probe: Result<(), RejectionReason>,
+    drogue: Result<(), RejectionReason>,
+    screened: bool,
+) -> &'static str {
+    if screened {
+        return "gross_error";
+    }
+    match (probe, drogue) {
+        (Ok(()), Ok(())) => "ok",
+        (Ok(()), Err(reason)) => no_drogue_status(reason),
+        (Err(reason), _) => rejected_status(reason),
+    }
+}
+
+/// Expands to a `match` from each rejection reason to `prefix` followed by its snake-case name
+/// (the name the report JSON gives it; a unit test checks the two agree).
+macro_rules! reason_text {
+    ($reason:expr, $prefix:literal) => {
+        match $reason {
+            RejectionReason::TooFewPoints => concat!($prefix, "too_few_points"),
+            RejectionReason::InvalidObservation => concat!($prefix, "invalid_observation"),
+            RejectionReason::UndistortionFailed => concat!($prefix, "undistortion_failed"),
+            RejectionReason::DegenerateGeometry => concat!($prefix, "degenerate_geometry"),
+            RejectionReason::NotConverged => concat!($prefix, "not_converged"),
+            RejectionReason::BehindCamera => concat!($prefix, "behind_camera"),
+            RejectionReason::TooManyOutliers => concat!($prefix, "too_many_outliers"),
+        }
+    };
+}
+
+fn no_drogue_status(reason: RejectionReason) -> &'static str {
+    reason_text!(reason, "no_drogue:")
+}
+
+fn rejected_status(reason: RejectionReason) -> &'static str {
+    reason_text!(reason, "rejected:")
+}
+
+/// The snake-case name of a rejection reason, as the report JSON writes it.
+pub fn rejection_name(reason: RejectionReason) -> &'static str {
+    reason_text!(reason, "")
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const REASONS: [RejectionReason; 7] = [
+        RejectionReason::TooFewPoints,
+        RejectionReason::InvalidObservation,
+        RejectionReason::UndistortionFailed,
+        RejectionReason::DegenerateGeometry,
+        RejectionReason::NotConverged,
+        RejectionReason::BehindCamera,
+        RejectionReason::TooManyOutliers,
+    ];
+
+    #[test]
+    fn status_texts_use_the_json_names_of_the_reasons() {
+        for reason in REASONS {
+            let json = serde_json::to_value(reason).unwrap();
+            let name = json.as_str().unwrap();
+            assert_eq!(rejection_name(reason), name);
+            assert_eq!(
+                frame_status(Err(reason), Ok(()), false),
+                format!("rejected:{name}")
+            );
+            assert_eq!(
+                frame_status(Ok(()), Err(reason), false),
+                format!("no_drogue:{name}")
+            );
+            assert_eq!(frame_status(Ok(()), Err(reason), true), "gross_error");
+        }
+        assert_eq!(frame_status(Ok(()), Ok(()), false), "ok");
+    }
+
+    #[test]
+    fn a_row_holds_nothing_on_the_heap_and_stays_small() {
+        // Common practice for a per-frame type: a size guard, so growth is a decision.
+        assert!(std::mem::size_of::<FrameRow>() <= 248);
+    }
 }

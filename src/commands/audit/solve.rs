@@ -6,7 +6,8 @@ use crate::geometry::Mount;
 use crate::offset::frames::{FrameRecord, FrameSolver};
 use crate::offset::observed_mount;
 use crate::pnp::{solve_pose, PnpOptions};
-use crate::session::{FrameDetections, InputError, TruthRow};
+use crate::session::{FrameDetections, InputError};
+use nalgebra::Vector3;
 
 use super::input::{FrameInput, Setup};
 
@@ -18,8 +19,9 @@ const BATCH_FRAMES: usize = 4096;
 #[derive(Debug, Clone)]
 pub struct Solved {
     pub records: Vec<FrameRecord>,
-    /// Truth of each record's frame, when the session has truth.
-    pub truth: Vec<Option<TruthRow>>,
+    /// The true probe-to-drogue vector in body axes (m) of each record's frame, when the
+    /// session has truth (all the audit uses of a truth row).
+    pub true_vector_m: Vec<Option<Vector3<f64>>>,
     /// The mount deviations are measured from: the nominal, or (without one) the observed
     /// mount of the first frame whose probe could be solved.
     pub reference: Mount,
@@ -33,15 +35,15 @@ pub fn solve_all(
 ) -> Result<Solved, InputError> {
     let mut solved = Solved {
         records: Vec::new(),
-        truth: Vec::new(),
+        true_vector_m: Vec::new(),
         reference: setup.nominal.unwrap_or_else(|| Mount {
-            position_m: nalgebra::Vector3::zeros(),
+            position_m: Vector3::zeros(),
             attitude: crate::geometry::YawPitchRoll::new(0.0, 0.0, 0.0),
         }),
     };
     let mut reference_known = setup.nominal.is_some();
     let mut frames = frames;
-    let mut next = read_batch(&mut frames, &mut solved.truth)?;
+    let mut next = read_batch(&mut frames, &mut solved.true_vector_m)?;
     while !next.is_empty() {
         let batch = std::mem::take(&mut next);
         if !reference_known {
@@ -61,12 +63,12 @@ pub fn solve_all(
             // Already on a pool thread (audits run in parallel, e.g. a sensitivity study): a
             // blocking join here would hold a worker the solve itself needs, so no overlap.
             let records = solver.solve_batch(&batch);
-            (records, read_batch(&mut frames, &mut solved.truth))
+            (records, read_batch(&mut frames, &mut solved.true_vector_m))
         } else {
             // The next batch is read on this thread while the pool solves this one.
             let (records, read) = std::thread::scope(|scope| {
                 let solving = scope.spawn(|| solver.solve_batch(&batch));
-                let read = read_batch(&mut frames, &mut solved.truth);
+                let read = read_batch(&mut frames, &mut solved.true_vector_m);
                 (solving.join(), read)
             });
             let records = records.unwrap_or_else(|panic| std::panic::resume_unwind(panic));
@@ -76,19 +78,23 @@ pub fn solve_all(
         progress(solved.records.len() as u64);
         next = read?;
     }
+    // The records grew by doubling; give back the unused tail before the statistics run.
+    solved.records.shrink_to_fit();
+    solved.true_vector_m.shrink_to_fit();
     Ok(solved)
 }
 
-/// Reads up to `BATCH_FRAMES` frames, appending their truth to `truth`; empty at the end.
+/// Reads up to `BATCH_FRAMES` frames, appending their true vectors to `truth`; empty at the
+/// end.
 fn read_batch(
     frames: &mut impl Iterator<Item = FrameInput>,
-    truth: &mut Vec<Option<TruthRow>>,
+    truth: &mut Vec<Option<Vector3<f64>>>,
 ) -> Result<Vec<FrameDetections>, InputError> {
     let mut batch = Vec::with_capacity(BATCH_FRAMES);
     for item in frames.by_ref().take(BATCH_FRAMES) {
         let (detections, row) = item?;
         batch.push(detections);
-        truth.push(row);
+        truth.push(row.map(|t| t.vector_m));
     }
     Ok(batch)
 }
