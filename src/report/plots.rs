@@ -415,19 +415,16 @@ pub fn fixed_offset_svg(outcome: &AuditOutcome) -> String {
         .map(|s| LegendEntry::marker(s.1, s.2, s.3))
         .collect();
     let contact_m = outcome.fixed_offset.as_ref().map(|fo| fo.contact_range_m);
-    let near: Vec<FrameRow> = match contact_m {
-        Some(c) => rows
-            .iter()
-            .filter(|r| r.range_m.is_some_and(|m| m <= c))
-            .cloned()
-            .collect(),
-        None => rows.clone(),
-    };
     let range_span = Span::of(rows.iter().filter_map(|r| r.range_m).chain(contact_m));
     let by_range = Canvas::new(range_span, 2, ERROR_PANEL_HEIGHT, true);
     let by_time = Canvas::new(time_span(rows), 2, ERROR_PANEL_HEIGHT, true);
     let by_range = error_layers(rows, &present, by_range, |r| r.range_m);
-    let by_time = error_layers(&near, &present, by_time, |r| Some(r.time_s));
+    // The time panel shows only the frames within the contact range.
+    let near_time = move |r: &FrameRow| {
+        let near = contact_m.is_none_or(|c| r.range_m.is_some_and(|m| m <= c));
+        near.then_some(r.time_s)
+    };
+    let by_time = error_layers(rows, &present, by_time, near_time);
     let time_title = match contact_m {
         Some(c) => format!("against time, ranges up to {} m", fixed(c, 1)),
         None => "against time".into(),
