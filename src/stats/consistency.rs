@@ -155,19 +155,31 @@ pub fn excess_scatter(
     information: &[Information],
     covariance: &[Matrix6<f64>],
 ) -> Result<ExcessScatter, StatsError> {
-    if x.is_empty() || x.len() != information.len() || x.len() != covariance.len() {
+    let variances: Vec<Vector6<f64>> = covariance.iter().map(|p| p.diagonal()).collect();
+    excess_scatter_with_variances(x, information, &variances)
+}
+
+/// [`excess_scatter`] from the per-frame variances (the covariance diagonals) alone, which is all
+/// of the covariance the per-axis factors use.
+pub fn excess_scatter_with_variances(
+    x: &[Vector6<f64>],
+    information: &[Information],
+    variances: &[Vector6<f64>],
+) -> Result<ExcessScatter, StatsError> {
+    if x.is_empty() || x.len() != information.len() || x.len() != variances.len() {
         return Err(StatsError::LengthMismatch {
             what: "deviations, information matrices and covariances",
             left: x.len(),
-            right: information.len().min(covariance.len()),
+            right: information.len().min(variances.len()),
         });
     }
-    let (a, b) = x
-        .iter()
-        .zip(information)
-        .fold((Matrix6::zeros(), Vector6::zeros()), |(a, b), (xi, wi)| {
-            (a + wi.matrix(), b + wi.matrix() * xi)
-        });
+    let (a, b) =
+        x.iter()
+            .zip(information)
+            .fold((Matrix6::zeros(), Vector6::zeros()), |(a, b), (xi, wi)| {
+                let w = wi.matrix();
+                (a + w, b + w * xi)
+            });
     let spectrum = information_sum_spectrum(&a);
     let mean = spectrum.pseudo_inverse() * b;
     let statistic: f64 = x
@@ -179,7 +191,7 @@ pub fn excess_scatter(
     let test = ChiSquareTest::new(statistic, dof);
     Ok(ExcessScatter {
         variance_factor: (dof > 0).then(|| statistic / dof as f64),
-        axis_variance_factor: axis_factors(x, information, covariance, &mean),
+        axis_variance_factor: axis_factors(x, information, variances, &mean),
         test,
     })
 }
@@ -187,13 +199,13 @@ pub fn excess_scatter(
 fn axis_factors(
     x: &[Vector6<f64>],
     information: &[Information],
-    covariance: &[Matrix6<f64>],
+    variances: &[Vector6<f64>],
     mean: &Vector6<f64>,
 ) -> [Option<f64>; 6] {
     let n = x.len();
     std::array::from_fn(|j| {
-        let observed = information.iter().all(|w| w.matrix()[(j, j)] > 0.0);
-        let predicted: f64 = covariance.iter().map(|p| p[(j, j)]).sum::<f64>() / n as f64;
+        let observed = information.iter().all(|w| w.diagonal(j) > 0.0);
+        let predicted: f64 = variances.iter().map(|p| p[j]).sum::<f64>() / n as f64;
         (observed && n > 1 && predicted > 0.0).then(|| {
             let empirical: f64 = x.iter().map(|xi| (xi[j] - mean[j]).powi(2)).sum::<f64>();
             empirical / (n - 1) as f64 / predicted

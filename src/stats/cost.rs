@@ -5,6 +5,7 @@
 //! which is what makes PELT's pruning with `K = 0` exact (Killick et al. 2012, section 3).
 
 use nalgebra::{Matrix6, Vector6};
+use rayon::prelude::*;
 
 use super::information::information_sum_spectrum;
 use super::StatsError;
@@ -321,26 +322,49 @@ impl InformationCost {
                 right: omega.len(),
             });
         }
-        let n = y.len();
+        Ok(Self::from_frames(y.len(), active_dim, |i| (y[i], omega[i])))
+    }
+
+    /// Builds the cost of `n` samples whose sample `y_i` and information `Ω_i` come from
+    /// `frame(i)` (same conditions as [`new`](Self::new)). The per-frame terms are formed in
+    /// parallel, the prefix sums in order.
+    pub fn from_frames(
+        n: usize,
+        active_dim: usize,
+        frame: impl Fn(usize) -> (Vector6<f64>, Matrix6<f64>) + Sync,
+    ) -> Self {
         let mut info_sums = vec![[0.0; 21]; n + 1];
         let mut weighted_sums = vec![Vector6::zeros(); n + 1];
         let mut square_sums = vec![0.0; n + 1];
-        for (i, (yi, wi)) in y.iter().zip(omega).enumerate() {
-            let wy = wi * yi;
-            for (k, &(r, c)) in UPPER.iter().enumerate() {
-                info_sums[i + 1][k] = info_sums[i][k] + wi[(r, c)];
-            }
-            weighted_sums[i + 1] = weighted_sums[i] + wy;
-            square_sums[i + 1] = square_sums[i] + yi.dot(&wy);
+        info_sums[1..]
+            .par_iter_mut()
+            .zip(weighted_sums[1..].par_iter_mut())
+            .zip(square_sums[1..].par_iter_mut())
+            .enumerate()
+            .for_each(|(i, ((info, weighted), square))| {
+                let (yi, wi) = frame(i);
+                let wy = wi * yi;
+                *info = std::array::from_fn(|k| wi[UPPER[k]]);
+                *weighted = wy;
+                *square = yi.dot(&wy);
+            });
+        for i in 1..=n {
+            let previous = info_sums[i - 1];
+            info_sums[i]
+                .iter_mut()
+                .zip(previous)
+                .for_each(|(v, p)| *v = p + *v);
+            weighted_sums[i] = weighted_sums[i - 1] + weighted_sums[i];
+            square_sums[i] = square_sums[i - 1] + square_sums[i];
         }
         let padding = std::array::from_fn(|r| if r >= active_dim { 1.0 } else { 0.0 });
-        Ok(Self {
+        Self {
             n,
             info_sums,
             weighted_sums,
             square_sums,
             padding,
-        })
+        }
     }
 
     /// The sums `(A, b, q)` = `(Σ Ω_i, Σ Ω_i y_i, Σ y_iᵀ Ω_i y_i)` over `start..end`.
