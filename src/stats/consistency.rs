@@ -2,6 +2,7 @@
 //! reprojection residuals, excess scatter within a segment, and NEES acceptance intervals.
 
 use nalgebra::{Matrix6, Vector6};
+use rayon::prelude::*;
 
 use super::distributions::{chi2_interval, chi2_quantile, chi2_sf, chi2_upper_quantile};
 use super::information::{information_sum_spectrum, Information};
@@ -55,13 +56,18 @@ pub fn windowed_consistency(
     }
     let mut statistic: f64 = frames[..window].iter().map(|f| f.statistic).sum();
     let mut dof: usize = frames[..window].iter().map(|f| f.dof).sum();
-    let mut out = vec![ChiSquareTest::new(statistic, dof)];
+    let mut sums = Vec::with_capacity(frames.len() - window + 1);
+    sums.push((statistic, dof));
     for i in window..frames.len() {
         statistic += frames[i].statistic - frames[i - window].statistic;
         dof = dof + frames[i].dof - frames[i - window].dof;
-        out.push(ChiSquareTest::new(statistic.max(0.0), dof));
+        sums.push((statistic.max(0.0), dof));
     }
-    Ok(out)
+    // The running sums are sequential; the tail probabilities are independent.
+    Ok(sums
+        .into_par_iter()
+        .map(|(statistic, dof)| ChiSquareTest::new(statistic, dof))
+        .collect())
 }
 
 /// The pixel noise implied by reprojection residuals.

@@ -282,13 +282,19 @@ fn pairwise_block(a: &[f64]) -> f64 {
 #[derive(Debug, Clone)]
 pub struct InformationCost {
     n: usize,
-    info_sums: Vec<[f64; 21]>,
-    weighted_sums: Vec<Vector6<f64>>,
-    square_sums: Vec<f64>,
+    /// Prefix sums per sample boundary, one 224-byte row each: the 21 packed entries of `Σ Ω_i`
+    /// ([`UPPER`] order), then `Σ Ω_i y_i` (6), then `Σ y_iᵀ Ω_i y_i`.
+    rows: Vec<[f64; ROW]>,
     /// 1 on the diagonal of the inactive coordinates (so that the factorisation sees a regular
     /// matrix there), 0 elsewhere.
     padding: [f64; 6],
 }
+
+/// Entries of one prefix row of [`InformationCost`].
+const ROW: usize = 28;
+/// Offset of `Σ Ω_i y_i` and of `Σ y_iᵀ Ω_i y_i` in a row.
+const WEIGHTED: usize = 21;
+const SQUARE: usize = 27;
 
 const UPPER: [(usize, usize); 21] = {
     let mut pairs = [(0, 0); 21];
@@ -333,51 +339,38 @@ impl InformationCost {
         active_dim: usize,
         frame: impl Fn(usize) -> (Vector6<f64>, Matrix6<f64>) + Sync,
     ) -> Self {
-        let mut info_sums = vec![[0.0; 21]; n + 1];
-        let mut weighted_sums = vec![Vector6::zeros(); n + 1];
-        let mut square_sums = vec![0.0; n + 1];
-        info_sums[1..]
-            .par_iter_mut()
-            .zip(weighted_sums[1..].par_iter_mut())
-            .zip(square_sums[1..].par_iter_mut())
-            .enumerate()
-            .for_each(|(i, ((info, weighted), square))| {
-                let (yi, wi) = frame(i);
-                let wy = wi * yi;
-                *info = std::array::from_fn(|k| wi[UPPER[k]]);
-                *weighted = wy;
-                *square = yi.dot(&wy);
-            });
+        let mut rows = vec![[0.0; ROW]; n + 1];
+        rows[1..].par_iter_mut().enumerate().for_each(|(i, row)| {
+            let (yi, wi) = frame(i);
+            let wy = wi * yi;
+            for (k, &(r, c)) in UPPER.iter().enumerate() {
+                row[k] = wi[(r, c)];
+            }
+            row[WEIGHTED..SQUARE].copy_from_slice(wy.as_slice());
+            row[SQUARE] = yi.dot(&wy);
+        });
         for i in 1..=n {
-            let previous = info_sums[i - 1];
-            info_sums[i]
+            let previous = rows[i - 1];
+            rows[i]
                 .iter_mut()
                 .zip(previous)
                 .for_each(|(v, p)| *v = p + *v);
-            weighted_sums[i] = weighted_sums[i - 1] + weighted_sums[i];
-            square_sums[i] = square_sums[i - 1] + square_sums[i];
         }
         let padding = std::array::from_fn(|r| if r >= active_dim { 1.0 } else { 0.0 });
-        Self {
-            n,
-            info_sums,
-            weighted_sums,
-            square_sums,
-            padding,
-        }
+        Self { n, rows, padding }
     }
 
     /// The sums `(A, b, q)` = `(Σ Ω_i, Σ Ω_i y_i, Σ y_iᵀ Ω_i y_i)` over `start..end`.
     pub fn segment_sums(&self, start: usize, end: usize) -> (Matrix6<f64>, Vector6<f64>, f64) {
-        let (lo, hi) = (&self.info_sums[start], &self.info_sums[end]);
+        let (lo, hi) = (&self.rows[start], &self.rows[end]);
         let mut a = Matrix6::zeros();
         for (k, &(r, c)) in UPPER.iter().enumerate() {
             let v = hi[k] - lo[k];
             a[(r, c)] = v;
             a[(c, r)] = v;
         }
-        let b = self.weighted_sums[end] - self.weighted_sums[start];
-        (a, b, self.square_sums[end] - self.square_sums[start])
+        let b = Vector6::from_fn(|r, _| hi[WEIGHTED + r] - lo[WEIGHTED + r]);
+        (a, b, hi[SQUARE] - lo[SQUARE])
     }
 }
 
@@ -387,15 +380,15 @@ impl SegmentCost for InformationCost {
     }
 
     fn cost(&self, start: usize, end: usize) -> f64 {
-        let (lo, hi) = (&self.info_sums[start], &self.info_sums[end]);
+        let (lo, hi) = (&self.rows[start], &self.rows[end]);
         let mut packed: [f64; 21] = std::array::from_fn(|k| hi[k] - lo[k]);
         for (r, pad) in self.padding.iter().enumerate() {
             packed[packed_index(r, r)] += pad;
         }
-        let b = self.weighted_sums[end] - self.weighted_sums[start];
-        let q = self.square_sums[end] - self.square_sums[start];
+        let b: [f64; 6] = std::array::from_fn(|r| hi[WEIGHTED + r] - lo[WEIGHTED + r]);
+        let q = hi[SQUARE] - lo[SQUARE];
         let explained = ldl_quadratic(&packed, &b).unwrap_or_else(|| {
-            let (a, _, _) = self.segment_sums(start, end);
+            let (a, b, _) = self.segment_sums(start, end);
             b.dot(&(information_sum_spectrum(&a).pseudo_inverse() * b))
         });
         (q - explained).max(0.0)
@@ -412,41 +405,46 @@ const fn packed_index(i: usize, j: usize) -> usize {
 /// is not positive or is negligible against the largest (below
 /// [`crate::tol::INFORMATION_SUM_RANK_REL`]): the matrix is singular up to rounding and the
 /// pseudo-inverse must be used instead.
-fn ldl_quadratic(a: &[f64; 21], b: &Vector6<f64>) -> Option<f64> {
+///
+/// Row by row (Crout order): `u_jk = l_jk d_k` is formed first and `l_jk = u_jk / d_k` with one
+/// reciprocal per pivot, and the forward substitution `y = L⁻¹ b` runs in the same pass, so an
+/// evaluation takes six divisions.
+#[inline]
+fn ldl_quadratic(a: &[f64; 21], b: &[f64; 6]) -> Option<f64> {
     let mut l = [[0.0f64; 6]; 6];
     let mut d = [0.0f64; 6];
+    let mut inverse = [0.0f64; 6];
+    let mut y = [0.0f64; 6];
+    let mut quadratic = 0.0;
     for j in 0..6 {
-        let mut pivot = a[packed_index(j, j)];
+        let mut u = [0.0f64; 6];
         for k in 0..j {
-            pivot -= l[j][k] * l[j][k] * d[k];
+            let mut v = a[packed_index(k, j)];
+            for m in 0..k {
+                v -= u[m] * l[k][m];
+            }
+            u[k] = v;
+            l[j][k] = v * inverse[k];
+        }
+        let mut pivot = a[packed_index(j, j)];
+        let mut rhs = b[j];
+        for k in 0..j {
+            pivot -= u[k] * l[j][k];
+            rhs -= l[j][k] * y[k];
         }
         if pivot.is_nan() || pivot <= 0.0 {
             return None;
         }
         d[j] = pivot;
-        for i in j + 1..6 {
-            let mut v = a[packed_index(j, i)];
-            for k in 0..j {
-                v -= l[i][k] * l[j][k] * d[k];
-            }
-            l[i][j] = v / pivot;
-        }
+        inverse[j] = 1.0 / pivot;
+        y[j] = rhs;
+        quadratic += rhs * rhs * inverse[j];
     }
     let (d_min, d_max) = d.iter().fold((f64::INFINITY, 0.0f64), |(lo, hi), &v| {
         (lo.min(v), hi.max(v))
     });
     if d_min <= crate::tol::INFORMATION_SUM_RANK_REL * d_max {
         return None;
-    }
-    let mut y = [0.0f64; 6];
-    let mut quadratic = 0.0;
-    for i in 0..6 {
-        let mut v = b[i];
-        for k in 0..i {
-            v -= l[i][k] * y[k];
-        }
-        y[i] = v;
-        quadratic += v * v / d[i];
     }
     Some(quadratic)
 }
@@ -466,7 +464,7 @@ mod tests {
             let b = Vector6::from_fn(|i, _| (i as f64 - 2.5) * (seed as f64 + 1.0));
             let packed: [f64; 21] = std::array::from_fn(|k| a[UPPER[k]]);
             let expected = b.dot(&a.cholesky().unwrap().solve(&b));
-            let ours = ldl_quadratic(&packed, &b).unwrap();
+            let ours = ldl_quadratic(&packed, &b.into()).unwrap();
             assert!(
                 (ours - expected).abs() <= 1e-9 * expected.abs().max(1.0),
                 "{ours} vs {expected}"
@@ -475,7 +473,7 @@ mod tests {
         let v = Vector6::new(1.0, 2.0, 0.0, -1.0, 0.5, 3.0);
         let singular = v * v.transpose();
         let packed: [f64; 21] = std::array::from_fn(|k| singular[UPPER[k]]);
-        assert_eq!(ldl_quadratic(&packed, &v), None);
+        assert_eq!(ldl_quadratic(&packed, &v.into()), None);
         assert_eq!(packed_index(0, 0), 0);
         assert_eq!(
             packed_index(2, 4),

@@ -39,41 +39,43 @@ impl DeviationSeries {
     /// Validates the samples: finite values, frame numbers strictly increasing, covariances
     /// symmetric positive semi-definite. The first invalid sample is reported.
     pub fn new(samples: &[DeviationSample]) -> Result<Self, StatsError> {
-        let information: Vec<Result<Information, StatsError>> = samples
-            .par_iter()
-            .enumerate()
-            .map(|(index, s)| Information::from_covariance(&s.covariance, index))
-            .collect();
-        let mut series = Self {
-            frames: Vec::with_capacity(samples.len()),
-            times_s: Vec::with_capacity(samples.len()),
-            deviations: Vec::with_capacity(samples.len()),
-            variances: Vec::with_capacity(samples.len()),
-            information: Vec::with_capacity(samples.len()),
-        };
-        for (index, (s, w)) in samples.iter().zip(information).enumerate() {
-            if let Some(&previous) = series.frames.last() {
-                if s.frame <= previous {
-                    return Err(StatsError::FramesNotIncreasing {
-                        index,
-                        frame: s.frame,
-                        previous,
-                    });
-                }
+        let mut previous: Option<i64> = None;
+        for (index, s) in samples.iter().enumerate() {
+            if let Some(previous) = previous.filter(|&p| s.frame <= p) {
+                // An earlier sample with a bad covariance is reported first.
+                first_bad_covariance(&samples[..index])?;
+                return Err(StatsError::FramesNotIncreasing {
+                    index,
+                    frame: s.frame,
+                    previous,
+                });
             }
             if !s.time_s.is_finite() || s.deviation.iter().any(|v| !v.is_finite()) {
+                first_bad_covariance(&samples[..index])?;
                 return Err(StatsError::NonFinite {
                     index,
                     what: "time or deviation",
                 });
             }
-            series.information.push(w?);
-            series.frames.push(s.frame);
-            series.times_s.push(s.time_s);
-            series.deviations.push(s.deviation);
-            series.variances.push(s.covariance.diagonal());
+            previous = Some(s.frame);
         }
-        Ok(series)
+        let information = samples
+            .par_iter()
+            .enumerate()
+            .map(|(index, s)| Information::from_covariance(&s.covariance, index))
+            .collect::<Result<Vec<_>, _>>();
+        let information = match information {
+            Ok(information) => information,
+            // Any failing sample will do for rayon; report the first one.
+            Err(error) => return Err(first_bad_covariance(samples).err().unwrap_or(error)),
+        };
+        Ok(Self {
+            frames: samples.iter().map(|s| s.frame).collect(),
+            times_s: samples.iter().map(|s| s.time_s).collect(),
+            deviations: samples.iter().map(|s| s.deviation).collect(),
+            variances: samples.iter().map(|s| s.covariance.diagonal()).collect(),
+            information,
+        })
     }
 
     /// Keeps the samples whose flag is set (in order); `keep` has one flag per sample.
@@ -126,6 +128,14 @@ impl DeviationSeries {
     pub fn information(&self) -> &[Information] {
         &self.information
     }
+}
+
+/// The error of the first sample whose covariance is not a covariance, if any.
+fn first_bad_covariance(samples: &[DeviationSample]) -> Result<(), StatsError> {
+    for (index, s) in samples.iter().enumerate() {
+        Information::from_covariance(&s.covariance, index)?;
+    }
+    Ok(())
 }
 
 /// The common whitening `z = L̄ (x − c)` with `W̄ = L̄ᵀL̄` the mean information (rows beyond

@@ -3,6 +3,7 @@
 //! and the segment mounts the fixed-offset error is computed from.
 
 use nalgebra::Vector6;
+use rayon::prelude::*;
 
 use crate::geometry::{Mount, MountDeviation};
 use crate::stats::consistency::{
@@ -80,20 +81,20 @@ pub fn analyse(
     )?;
     let mut sample_records = Vec::with_capacity(records.len());
     let mut screened_records = Vec::new();
-    let mut frame_tests = Vec::with_capacity(records.len());
-    let screened = records
-        .into_iter()
-        .zip(series.deviations())
-        .zip(series.information());
-    for (((record, deviation), w), keep) in screened.zip(&screening.keep) {
+    for (record, keep) in records.into_iter().zip(&screening.keep) {
         if *keep {
-            frame_tests.push(frame_consistency(deviation, w));
             sample_records.push(record);
         } else {
             screened_records.push(record);
         }
     }
     series.retain(&screening.keep)?;
+    let frame_tests: Vec<ChiSquareTest> = series
+        .deviations()
+        .par_iter()
+        .zip(series.information())
+        .map(|(deviation, w)| frame_consistency(deviation, w))
+        .collect();
     drop(screening);
     let windows = if frame_tests.len() >= WINDOW_FRAMES {
         windowed_consistency(&frame_tests, WINDOW_FRAMES)?
