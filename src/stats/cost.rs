@@ -351,10 +351,7 @@ impl InformationCost {
         });
         for i in 1..=n {
             let previous = rows[i - 1];
-            rows[i]
-                .iter_mut()
-                .zip(previous)
-                .for_each(|(v, p)| *v = p + *v);
+            rows[i].iter_mut().zip(previous).for_each(|(v, p)| *v += p);
         }
         let padding = std::array::from_fn(|r| if r >= active_dim { 1.0 } else { 0.0 });
         Self { n, rows, padding }
