@@ -89,21 +89,23 @@ pub fn analyse(
         }
     }
     series.retain(&screening.keep)?;
+    drop(screening);
+    // The drift analysis first: it holds the most per-frame data, so the per-frame test results
+    // are only made once it is done.
+    let drift = run_drift(&series, false_alarm_rate, calibrators)?;
+    let sample_segment = segment_of_samples(drift.as_ref(), series.len());
     let frame_tests: Vec<ChiSquareTest> = series
         .deviations()
         .par_iter()
         .zip(series.information())
         .map(|(deviation, w)| frame_consistency(deviation, w))
         .collect();
-    drop(screening);
+    drop(series);
     let windows = if frame_tests.len() >= WINDOW_FRAMES {
         windowed_consistency(&frame_tests, WINDOW_FRAMES)?
     } else {
         Vec::new()
     };
-    let drift = run_drift(&series, false_alarm_rate, calibrators)?;
-    let sample_segment = segment_of_samples(drift.as_ref(), series.len());
-    drop(series);
     let segment_mounts = drift
         .as_ref()
         .map(|d| {
