@@ -390,7 +390,42 @@ impl SegmentCost for InformationCost {
         });
         (q - explained).max(0.0)
     }
+
+    /// Evaluates [`LANES`] starts at a time with the factorisations in lockstep (independent
+    /// dependency chains, and vector registers where the target has them); each lane performs
+    /// exactly the operations of [`cost`](SegmentCost::cost), so the results are the same.
+    #[allow(clippy::needless_range_loop)] // a lane index runs over several arrays at once
+    fn costs_to(&self, starts: &[usize], end: usize, out: &mut [f64]) {
+        let hi = &self.rows[end];
+        let mut groups = starts.chunks_exact(LANES);
+        let mut outs = out.chunks_exact_mut(LANES);
+        for (group, o) in (&mut groups).zip(&mut outs) {
+            let lo: [&[f64; ROW]; LANES] = std::array::from_fn(|s| &self.rows[group[s]]);
+            let mut a: [[f64; LANES]; 21] =
+                std::array::from_fn(|k| std::array::from_fn(|s| hi[k] - lo[s][k]));
+            for (r, pad) in self.padding.iter().enumerate() {
+                a[packed_index(r, r)].iter_mut().for_each(|v| *v += pad);
+            }
+            let b: [[f64; LANES]; 6] = std::array::from_fn(|r| {
+                std::array::from_fn(|s| hi[WEIGHTED + r] - lo[s][WEIGHTED + r])
+            });
+            let explained = ldl_quadratic_lanes(&a, &b);
+            for s in 0..LANES {
+                o[s] = match explained[s] {
+                    Some(e) => (hi[SQUARE] - lo[s][SQUARE] - e).max(0.0),
+                    None => self.cost(group[s], end),
+                };
+            }
+        }
+        let rest = groups.remainder();
+        for (o, &start) in outs.into_remainder().iter_mut().zip(rest) {
+            *o = self.cost(start, end);
+        }
+    }
 }
+
+/// Candidate starts [`InformationCost`] evaluates together.
+const LANES: usize = 4;
 
 /// Position of entry `(i, j)`, `i <= j`, in the packed upper triangle of [`UPPER`].
 const fn packed_index(i: usize, j: usize) -> usize {
@@ -408,42 +443,62 @@ const fn packed_index(i: usize, j: usize) -> usize {
 /// evaluation takes six divisions.
 #[inline]
 fn ldl_quadratic(a: &[f64; 21], b: &[f64; 6]) -> Option<f64> {
-    let mut l = [[0.0f64; 6]; 6];
-    let mut d = [0.0f64; 6];
-    let mut inverse = [0.0f64; 6];
-    let mut y = [0.0f64; 6];
-    let mut quadratic = 0.0;
+    let a: [[f64; 1]; 21] = std::array::from_fn(|k| [a[k]]);
+    let b: [[f64; 1]; 6] = std::array::from_fn(|r| [b[r]]);
+    ldl_quadratic_lanes(&a, &b)[0]
+}
+
+/// [`ldl_quadratic`] of `L` matrices at once (`a[k][s]`, `b[r][s]`: entry of lane `s`), every lane
+/// with the same operations in the same order as one alone.
+#[inline(always)]
+#[allow(clippy::needless_range_loop)] // a lane index runs over several arrays at once
+fn ldl_quadratic_lanes<const L: usize>(a: &[[f64; L]; 21], b: &[[f64; L]; 6]) -> [Option<f64>; L] {
+    let mut l = [[[0.0f64; L]; 6]; 6];
+    let mut d = [[0.0f64; L]; 6];
+    let mut inverse = [[0.0f64; L]; 6];
+    let mut y = [[0.0f64; L]; 6];
+    let mut quadratic = [0.0f64; L];
+    let mut valid = [true; L];
     for j in 0..6 {
-        let mut u = [0.0f64; 6];
+        let mut u = [[0.0f64; L]; 6];
         for k in 0..j {
             let mut v = a[packed_index(k, j)];
             for m in 0..k {
-                v -= u[m] * l[k][m];
+                for s in 0..L {
+                    v[s] -= u[m][s] * l[k][m][s];
+                }
             }
             u[k] = v;
-            l[j][k] = v * inverse[k];
+            for s in 0..L {
+                l[j][k][s] = v[s] * inverse[k][s];
+            }
         }
         let mut pivot = a[packed_index(j, j)];
         let mut rhs = b[j];
         for k in 0..j {
-            pivot -= u[k] * l[j][k];
-            rhs -= l[j][k] * y[k];
+            for s in 0..L {
+                pivot[s] -= u[k][s] * l[j][k][s];
+                rhs[s] -= l[j][k][s] * y[k][s];
+            }
         }
-        if pivot.is_nan() || pivot <= 0.0 {
-            return None;
+        for s in 0..L {
+            // A lane whose pivot is not positive has no factorisation; it goes on with
+            // meaningless numbers and is discarded.
+            if pivot[s].is_nan() || pivot[s] <= 0.0 {
+                valid[s] = false;
+            }
+            d[j][s] = pivot[s];
+            inverse[j][s] = 1.0 / pivot[s];
+            y[j][s] = rhs[s];
+            quadratic[s] += rhs[s] * rhs[s] * inverse[j][s];
         }
-        d[j] = pivot;
-        inverse[j] = 1.0 / pivot;
-        y[j] = rhs;
-        quadratic += rhs * rhs * inverse[j];
     }
-    let (d_min, d_max) = d.iter().fold((f64::INFINITY, 0.0f64), |(lo, hi), &v| {
-        (lo.min(v), hi.max(v))
-    });
-    if d_min <= crate::tol::INFORMATION_SUM_RANK_REL * d_max {
-        return None;
-    }
-    Some(quadratic)
+    std::array::from_fn(|s| {
+        let (d_min, d_max) = d.iter().fold((f64::INFINITY, 0.0f64), |(lo, hi), row| {
+            (lo.min(row[s]), hi.max(row[s]))
+        });
+        (valid[s] && d_min > crate::tol::INFORMATION_SUM_RANK_REL * d_max).then_some(quadratic[s])
+    })
 }
 
 #[cfg(test)]
@@ -476,5 +531,33 @@ mod tests {
             packed_index(2, 4),
             UPPER.iter().position(|&p| p == (2, 4)).unwrap()
         );
+    }
+
+    /// Lockstep evaluation gives the single evaluations bit for bit, also where a lane's
+    /// segment is singular and falls back to the pseudo-inverse.
+    #[test]
+    fn lanes_equal_single_evaluations_bit_for_bit() {
+        let n = 64;
+        let y: Vec<Vector6<f64>> = (0..n)
+            .map(|i| Vector6::from_fn(|r, _| ((i * 7 + r * 3) % 11) as f64 - 5.0))
+            .collect();
+        let omega: Vec<Matrix6<f64>> = (0..n)
+            .map(|i| {
+                let v = Vector6::from_fn(|r, _| ((i * 5 + r * 13) % 7) as f64 - 3.0);
+                let rank_one = v * v.transpose();
+                if i % 3 == 0 {
+                    rank_one
+                } else {
+                    rank_one + Matrix6::identity() * 0.5
+                }
+            })
+            .collect();
+        let cost = InformationCost::new(&y, &omega, 6).unwrap();
+        let starts: Vec<usize> = (0..49).collect();
+        let mut out = vec![0.0; starts.len()];
+        cost.costs_to(&starts, 49, &mut out);
+        for (&start, &o) in starts.iter().zip(&out) {
+            assert_eq!(o.to_bits(), cost.cost(start, 49).to_bits(), "start {start}");
+        }
     }
 }
