@@ -262,3 +262,16 @@ pub const PELT_BOUND_SLACK_REL: f64 = 1e-9;
 /// which may find a pose that keeps them. A choice of this library, checked by the audit giving
 /// the same outlier count with and without the shortcut.
 pub const PNP_CLEAR_OUTLIER_CHI2: f64 = 400.0;
+
+/// Largest `tr(P) · tr(P⁻¹)` for which a covariance's pseudo-inverse is taken as its Cholesky
+/// inverse (`stats::information`). The product bounds the condition number from above, and the
+/// eigen path zeroes eigenvalues below `COVARIANCE_RANK_REL` (1e-12) of the largest; 1e10 keeps
+/// a margin of 100 over that floor for the rounding of either computation.
+pub const COVARIANCE_FAST_CONDITION: f64 = 1e10;
+
+/// Largest product of the condition numbers of a frame's whitened information `Ω_t` and of the
+/// noise inflation `Γ` for which the effective information is formed directly as
+/// `Ω_t^{1/2} Γ⁻¹ Ω_t^{1/2}` (`stats::series`): the pseudo-inverse of `Ω_t^{-1/2} Γ Ω_t^{-1/2}`
+/// keeps every eigenvalue above `INFORMATION_SUM_RANK_REL` (1e-10) of the largest as long as its
+/// condition number, at most this product, stays below 1e10; 1e8 keeps a margin of 100.
+pub const EFFECTIVE_FAST_CONDITION: f64 = 1e8;

@@ -2,6 +2,7 @@
 //! reprojection residuals, excess scatter within a segment, and NEES acceptance intervals.
 
 use nalgebra::{Matrix6, Vector6};
+use rayon::prelude::*;
 
 use super::distributions::{chi2_interval, chi2_quantile, chi2_sf, chi2_upper_quantile};
 use super::information::{information_sum_spectrum, Information};
@@ -55,13 +56,18 @@ pub fn windowed_consistency(
     }
     let mut statistic: f64 = frames[..window].iter().map(|f| f.statistic).sum();
     let mut dof: usize = frames[..window].iter().map(|f| f.dof).sum();
-    let mut out = vec![ChiSquareTest::new(statistic, dof)];
+    let mut sums = Vec::with_capacity(frames.len() - window + 1);
+    sums.push((statistic, dof));
     for i in window..frames.len() {
         statistic += frames[i].statistic - frames[i - window].statistic;
         dof = dof + frames[i].dof - frames[i - window].dof;
-        out.push(ChiSquareTest::new(statistic.max(0.0), dof));
+        sums.push((statistic.max(0.0), dof));
     }
-    Ok(out)
+    // The running sums are sequential; the tail probabilities are independent.
+    Ok(sums
+        .into_par_iter()
+        .map(|(statistic, dof)| ChiSquareTest::new(statistic, dof))
+        .collect())
 }
 
 /// The pixel noise implied by reprojection residuals.
@@ -155,19 +161,31 @@ pub fn excess_scatter(
     information: &[Information],
     covariance: &[Matrix6<f64>],
 ) -> Result<ExcessScatter, StatsError> {
-    if x.is_empty() || x.len() != information.len() || x.len() != covariance.len() {
+    let variances: Vec<Vector6<f64>> = covariance.iter().map(|p| p.diagonal()).collect();
+    excess_scatter_with_variances(x, information, &variances)
+}
+
+/// [`excess_scatter`] from the per-frame variances (the covariance diagonals) alone, which is all
+/// of the covariance the per-axis factors use.
+pub fn excess_scatter_with_variances(
+    x: &[Vector6<f64>],
+    information: &[Information],
+    variances: &[Vector6<f64>],
+) -> Result<ExcessScatter, StatsError> {
+    if x.is_empty() || x.len() != information.len() || x.len() != variances.len() {
         return Err(StatsError::LengthMismatch {
             what: "deviations, information matrices and covariances",
             left: x.len(),
-            right: information.len().min(covariance.len()),
+            right: information.len().min(variances.len()),
         });
     }
-    let (a, b) = x
-        .iter()
-        .zip(information)
-        .fold((Matrix6::zeros(), Vector6::zeros()), |(a, b), (xi, wi)| {
-            (a + wi.matrix(), b + wi.matrix() * xi)
-        });
+    let (a, b) =
+        x.iter()
+            .zip(information)
+            .fold((Matrix6::zeros(), Vector6::zeros()), |(a, b), (xi, wi)| {
+                let w = wi.matrix();
+                (a + w, b + w * xi)
+            });
     let spectrum = information_sum_spectrum(&a);
     let mean = spectrum.pseudo_inverse() * b;
     let statistic: f64 = x
@@ -179,7 +197,7 @@ pub fn excess_scatter(
     let test = ChiSquareTest::new(statistic, dof);
     Ok(ExcessScatter {
         variance_factor: (dof > 0).then(|| statistic / dof as f64),
-        axis_variance_factor: axis_factors(x, information, covariance, &mean),
+        axis_variance_factor: axis_factors(x, information, variances, &mean),
         test,
     })
 }
@@ -187,13 +205,13 @@ pub fn excess_scatter(
 fn axis_factors(
     x: &[Vector6<f64>],
     information: &[Information],
-    covariance: &[Matrix6<f64>],
+    variances: &[Vector6<f64>],
     mean: &Vector6<f64>,
 ) -> [Option<f64>; 6] {
     let n = x.len();
     std::array::from_fn(|j| {
-        let observed = information.iter().all(|w| w.matrix()[(j, j)] > 0.0);
-        let predicted: f64 = covariance.iter().map(|p| p[(j, j)]).sum::<f64>() / n as f64;
+        let observed = information.iter().all(|w| w.diagonal(j) > 0.0);
+        let predicted: f64 = variances.iter().map(|p| p[j]).sum::<f64>() / n as f64;
         (observed && n > 1 && predicted > 0.0).then(|| {
             let empirical: f64 = x.iter().map(|xi| (xi[j] - mean[j]).powi(2)).sum::<f64>();
             empirical / (n - 1) as f64 / predicted

@@ -5,6 +5,7 @@
 //! which is what makes PELT's pruning with `K = 0` exact (Killick et al. 2012, section 3).
 
 use nalgebra::{Matrix6, Vector6};
+use rayon::prelude::*;
 
 use super::information::information_sum_spectrum;
 use super::StatsError;
@@ -281,13 +282,19 @@ fn pairwise_block(a: &[f64]) -> f64 {
 #[derive(Debug, Clone)]
 pub struct InformationCost {
     n: usize,
-    info_sums: Vec<[f64; 21]>,
-    weighted_sums: Vec<Vector6<f64>>,
-    square_sums: Vec<f64>,
+    /// Prefix sums per sample boundary, one 224-byte row each: the 21 packed entries of `Σ Ω_i`
+    /// ([`UPPER`] order), then `Σ Ω_i y_i` (6), then `Σ y_iᵀ Ω_i y_i`.
+    rows: Vec<[f64; ROW]>,
     /// 1 on the diagonal of the inactive coordinates (so that the factorisation sees a regular
     /// matrix there), 0 elsewhere.
     padding: [f64; 6],
 }
+
+/// Entries of one prefix row of [`InformationCost`].
+const ROW: usize = 28;
+/// Offset of `Σ Ω_i y_i` and of `Σ y_iᵀ Ω_i y_i` in a row.
+const WEIGHTED: usize = 21;
+const SQUARE: usize = 27;
 
 const UPPER: [(usize, usize); 21] = {
     let mut pairs = [(0, 0); 21];
@@ -321,39 +328,46 @@ impl InformationCost {
                 right: omega.len(),
             });
         }
-        let n = y.len();
-        let mut info_sums = vec![[0.0; 21]; n + 1];
-        let mut weighted_sums = vec![Vector6::zeros(); n + 1];
-        let mut square_sums = vec![0.0; n + 1];
-        for (i, (yi, wi)) in y.iter().zip(omega).enumerate() {
+        Ok(Self::from_frames(y.len(), active_dim, |i| (y[i], omega[i])))
+    }
+
+    /// Builds the cost of `n` samples whose sample `y_i` and information `Ω_i` come from
+    /// `frame(i)` (same conditions as [`new`](Self::new)). The per-frame terms are formed in
+    /// parallel, the prefix sums in order.
+    pub fn from_frames(
+        n: usize,
+        active_dim: usize,
+        frame: impl Fn(usize) -> (Vector6<f64>, Matrix6<f64>) + Sync,
+    ) -> Self {
+        let mut rows = vec![[0.0; ROW]; n + 1];
+        rows[1..].par_iter_mut().enumerate().for_each(|(i, row)| {
+            let (yi, wi) = frame(i);
             let wy = wi * yi;
             for (k, &(r, c)) in UPPER.iter().enumerate() {
-                info_sums[i + 1][k] = info_sums[i][k] + wi[(r, c)];
+                row[k] = wi[(r, c)];
             }
-            weighted_sums[i + 1] = weighted_sums[i] + wy;
-            square_sums[i + 1] = square_sums[i] + yi.dot(&wy);
+            row[WEIGHTED..SQUARE].copy_from_slice(wy.as_slice());
+            row[SQUARE] = yi.dot(&wy);
+        });
+        for i in 1..=n {
+            let previous = rows[i - 1];
+            rows[i].iter_mut().zip(previous).for_each(|(v, p)| *v += p);
         }
         let padding = std::array::from_fn(|r| if r >= active_dim { 1.0 } else { 0.0 });
-        Ok(Self {
-            n,
-            info_sums,
-            weighted_sums,
-            square_sums,
-            padding,
-        })
+        Self { n, rows, padding }
     }
 
     /// The sums `(A, b, q)` = `(Σ Ω_i, Σ Ω_i y_i, Σ y_iᵀ Ω_i y_i)` over `start..end`.
     pub fn segment_sums(&self, start: usize, end: usize) -> (Matrix6<f64>, Vector6<f64>, f64) {
-        let (lo, hi) = (&self.info_sums[start], &self.info_sums[end]);
+        let (lo, hi) = (&self.rows[start], &self.rows[end]);
         let mut a = Matrix6::zeros();
         for (k, &(r, c)) in UPPER.iter().enumerate() {
             let v = hi[k] - lo[k];
             a[(r, c)] = v;
             a[(c, r)] = v;
         }
-        let b = self.weighted_sums[end] - self.weighted_sums[start];
-        (a, b, self.square_sums[end] - self.square_sums[start])
+        let b = Vector6::from_fn(|r, _| hi[WEIGHTED + r] - lo[WEIGHTED + r]);
+        (a, b, hi[SQUARE] - lo[SQUARE])
     }
 }
 
@@ -363,20 +377,55 @@ impl SegmentCost for InformationCost {
     }
 
     fn cost(&self, start: usize, end: usize) -> f64 {
-        let (lo, hi) = (&self.info_sums[start], &self.info_sums[end]);
+        let (lo, hi) = (&self.rows[start], &self.rows[end]);
         let mut packed: [f64; 21] = std::array::from_fn(|k| hi[k] - lo[k]);
         for (r, pad) in self.padding.iter().enumerate() {
             packed[packed_index(r, r)] += pad;
         }
-        let b = self.weighted_sums[end] - self.weighted_sums[start];
-        let q = self.square_sums[end] - self.square_sums[start];
+        let b: [f64; 6] = std::array::from_fn(|r| hi[WEIGHTED + r] - lo[WEIGHTED + r]);
+        let q = hi[SQUARE] - lo[SQUARE];
         let explained = ldl_quadratic(&packed, &b).unwrap_or_else(|| {
-            let (a, _, _) = self.segment_sums(start, end);
+            let (a, b, _) = self.segment_sums(start, end);
             b.dot(&(information_sum_spectrum(&a).pseudo_inverse() * b))
         });
         (q - explained).max(0.0)
     }
+
+    /// Evaluates [`LANES`] starts at a time with the factorisations in lockstep (independent
+    /// dependency chains, and vector registers where the target has them); each lane performs
+    /// exactly the operations of [`cost`](SegmentCost::cost), so the results are the same.
+    #[allow(clippy::needless_range_loop)] // a lane index runs over several arrays at once
+    fn costs_to(&self, starts: &[usize], end: usize, out: &mut [f64]) {
+        let hi = &self.rows[end];
+        let mut groups = starts.chunks_exact(LANES);
+        let mut outs = out.chunks_exact_mut(LANES);
+        for (group, o) in (&mut groups).zip(&mut outs) {
+            let lo: [&[f64; ROW]; LANES] = std::array::from_fn(|s| &self.rows[group[s]]);
+            let mut a: [[f64; LANES]; 21] =
+                std::array::from_fn(|k| std::array::from_fn(|s| hi[k] - lo[s][k]));
+            for (r, pad) in self.padding.iter().enumerate() {
+                a[packed_index(r, r)].iter_mut().for_each(|v| *v += pad);
+            }
+            let b: [[f64; LANES]; 6] = std::array::from_fn(|r| {
+                std::array::from_fn(|s| hi[WEIGHTED + r] - lo[s][WEIGHTED + r])
+            });
+            let explained = ldl_quadratic_lanes(&a, &b);
+            for s in 0..LANES {
+                o[s] = match explained[s] {
+                    Some(e) => (hi[SQUARE] - lo[s][SQUARE] - e).max(0.0),
+                    None => self.cost(group[s], end),
+                };
+            }
+        }
+        let rest = groups.remainder();
+        for (o, &start) in outs.into_remainder().iter_mut().zip(rest) {
+            *o = self.cost(start, end);
+        }
+    }
 }
+
+/// Candidate starts [`InformationCost`] evaluates together.
+const LANES: usize = 4;
 
 /// Position of entry `(i, j)`, `i <= j`, in the packed upper triangle of [`UPPER`].
 const fn packed_index(i: usize, j: usize) -> usize {
@@ -388,43 +437,68 @@ const fn packed_index(i: usize, j: usize) -> usize {
 /// is not positive or is negligible against the largest (below
 /// [`crate::tol::INFORMATION_SUM_RANK_REL`]): the matrix is singular up to rounding and the
 /// pseudo-inverse must be used instead.
-fn ldl_quadratic(a: &[f64; 21], b: &Vector6<f64>) -> Option<f64> {
-    let mut l = [[0.0f64; 6]; 6];
-    let mut d = [0.0f64; 6];
+///
+/// Row by row (Crout order): `u_jk = l_jk d_k` is formed first and `l_jk = u_jk / d_k` with one
+/// reciprocal per pivot, and the forward substitution `y = L⁻¹ b` runs in the same pass, so an
+/// evaluation takes six divisions.
+#[inline]
+fn ldl_quadratic(a: &[f64; 21], b: &[f64; 6]) -> Option<f64> {
+    let a: [[f64; 1]; 21] = std::array::from_fn(|k| [a[k]]);
+    let b: [[f64; 1]; 6] = std::array::from_fn(|r| [b[r]]);
+    ldl_quadratic_lanes(&a, &b)[0]
+}
+
+/// [`ldl_quadratic`] of `L` matrices at once (`a[k][s]`, `b[r][s]`: entry of lane `s`), every lane
+/// with the same operations in the same order as one alone.
+#[inline(always)]
+#[allow(clippy::needless_range_loop)] // a lane index runs over several arrays at once
+fn ldl_quadratic_lanes<const L: usize>(a: &[[f64; L]; 21], b: &[[f64; L]; 6]) -> [Option<f64>; L] {
+    let mut l = [[[0.0f64; L]; 6]; 6];
+    let mut d = [[0.0f64; L]; 6];
+    let mut inverse = [[0.0f64; L]; 6];
+    let mut y = [[0.0f64; L]; 6];
+    let mut quadratic = [0.0f64; L];
+    let mut valid = [true; L];
     for j in 0..6 {
-        let mut pivot = a[packed_index(j, j)];
+        let mut u = [[0.0f64; L]; 6];
         for k in 0..j {
-            pivot -= l[j][k] * l[j][k] * d[k];
-        }
-        if pivot.is_nan() || pivot <= 0.0 {
-            return None;
-        }
-        d[j] = pivot;
-        for i in j + 1..6 {
-            let mut v = a[packed_index(j, i)];
-            for k in 0..j {
-                v -= l[i][k] * l[j][k] * d[k];
+            let mut v = a[packed_index(k, j)];
+            for m in 0..k {
+                for s in 0..L {
+                    v[s] -= u[m][s] * l[k][m][s];
+                }
             }
-            l[i][j] = v / pivot;
+            u[k] = v;
+            for s in 0..L {
+                l[j][k][s] = v[s] * inverse[k][s];
+            }
+        }
+        let mut pivot = a[packed_index(j, j)];
+        let mut rhs = b[j];
+        for k in 0..j {
+            for s in 0..L {
+                pivot[s] -= u[k][s] * l[j][k][s];
+                rhs[s] -= l[j][k][s] * y[k][s];
+            }
+        }
+        for s in 0..L {
+            // A lane whose pivot is not positive has no factorisation; it goes on with
+            // meaningless numbers and is discarded.
+            if pivot[s].is_nan() || pivot[s] <= 0.0 {
+                valid[s] = false;
+            }
+            d[j][s] = pivot[s];
+            inverse[j][s] = 1.0 / pivot[s];
+            y[j][s] = rhs[s];
+            quadratic[s] += rhs[s] * rhs[s] * inverse[j][s];
         }
     }
-    let (d_min, d_max) = d.iter().fold((f64::INFINITY, 0.0f64), |(lo, hi), &v| {
-        (lo.min(v), hi.max(v))
-    });
-    if d_min <= crate::tol::INFORMATION_SUM_RANK_REL * d_max {
-        return None;
-    }
-    let mut y = [0.0f64; 6];
-    let mut quadratic = 0.0;
-    for i in 0..6 {
-        let mut v = b[i];
-        for k in 0..i {
-            v -= l[i][k] * y[k];
-        }
-        y[i] = v;
-        quadratic += v * v / d[i];
-    }
-    Some(quadratic)
+    std::array::from_fn(|s| {
+        let (d_min, d_max) = d.iter().fold((f64::INFINITY, 0.0f64), |(lo, hi), row| {
+            (lo.min(row[s]), hi.max(row[s]))
+        });
+        (valid[s] && d_min > crate::tol::INFORMATION_SUM_RANK_REL * d_max).then_some(quadratic[s])
+    })
 }
 
 #[cfg(test)]
@@ -442,7 +516,7 @@ mod tests {
             let b = Vector6::from_fn(|i, _| (i as f64 - 2.5) * (seed as f64 + 1.0));
             let packed: [f64; 21] = std::array::from_fn(|k| a[UPPER[k]]);
             let expected = b.dot(&a.cholesky().unwrap().solve(&b));
-            let ours = ldl_quadratic(&packed, &b).unwrap();
+            let ours = ldl_quadratic(&packed, &b.into()).unwrap();
             assert!(
                 (ours - expected).abs() <= 1e-9 * expected.abs().max(1.0),
                 "{ours} vs {expected}"
@@ -451,11 +525,39 @@ mod tests {
         let v = Vector6::new(1.0, 2.0, 0.0, -1.0, 0.5, 3.0);
         let singular = v * v.transpose();
         let packed: [f64; 21] = std::array::from_fn(|k| singular[UPPER[k]]);
-        assert_eq!(ldl_quadratic(&packed, &v), None);
+        assert_eq!(ldl_quadratic(&packed, &v.into()), None);
         assert_eq!(packed_index(0, 0), 0);
         assert_eq!(
             packed_index(2, 4),
             UPPER.iter().position(|&p| p == (2, 4)).unwrap()
         );
+    }
+
+    /// Lockstep evaluation gives the single evaluations bit for bit, also where a lane's
+    /// segment is singular and falls back to the pseudo-inverse.
+    #[test]
+    fn lanes_equal_single_evaluations_bit_for_bit() {
+        let n = 64;
+        let y: Vec<Vector6<f64>> = (0..n)
+            .map(|i| Vector6::from_fn(|r, _| ((i * 7 + r * 3) % 11) as f64 - 5.0))
+            .collect();
+        let omega: Vec<Matrix6<f64>> = (0..n)
+            .map(|i| {
+                let v = Vector6::from_fn(|r, _| ((i * 5 + r * 13) % 7) as f64 - 3.0);
+                let rank_one = v * v.transpose();
+                if i % 3 == 0 {
+                    rank_one
+                } else {
+                    rank_one + Matrix6::identity() * 0.5
+                }
+            })
+            .collect();
+        let cost = InformationCost::new(&y, &omega, 6).unwrap();
+        let starts: Vec<usize> = (0..49).collect();
+        let mut out = vec![0.0; starts.len()];
+        cost.costs_to(&starts, 49, &mut out);
+        for (&start, &o) in starts.iter().zip(&out) {
+            assert_eq!(o.to_bits(), cost.cost(start, 49).to_bits(), "start {start}");
+        }
     }
 }

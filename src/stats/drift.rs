@@ -10,16 +10,18 @@
 //!    the new segments until they no longer change (found shifts then stop inflating `Γ`);
 //! 4. estimate each segment's mean, each change point's shift, p-value and location interval.
 
+use rayon::prelude::*;
+
 use super::changepoint::{pelt, Segmentation};
-use super::consistency::{excess_scatter, ExcessScatter};
+use super::consistency::{excess_scatter_with_variances, ExcessScatter};
 use super::cost::SegmentCost;
 use super::noise::{estimate_effective_noise, EffectiveNoise, NoiseScales};
 use super::online::{session_alarm, OnlineCalibrator, SessionNull};
 use super::penalty::{null_lag1, stream_seed, PenaltyCalibration, PenaltyCalibrator};
 use super::segments::{
-    location_interval, shift_between, weighted_mean, LocationSettings, SegmentMean, Shift,
+    location_interval, shift_between, weighted_mean_by, LocationSettings, SegmentMean, Shift,
 };
-use super::series::{DeviationSeries, EffectiveModel};
+use super::series::{DeviationSeries, EffectiveCost, EffectiveModel, Inflation};
 use super::StatsError;
 
 /// Options of the drift analysis.
@@ -184,7 +186,7 @@ pub fn analyse_drift(
         objective: 0.0,
     };
     let mut rounds = 0;
-    let (noise, penalty, converged) = loop {
+    let (noise, penalty, converged, cost) = loop {
         rounds += 1;
         let windows = noise_windows(&segmentation.segments(), &regular);
         let noise = estimate_effective_noise(&model.z, model.whitening.dim, &windows, &scales);
@@ -198,12 +200,13 @@ pub fn analyse_drift(
             noise.null_lag1(rounds == 1),
         )?;
         model.inflate(&noise.inflation);
-        let next = pelt(&model.cost()?, penalty.penalty, m)?;
+        let cost = model.cost()?;
+        let next = pelt(&cost, penalty.penalty, m)?;
         // The first round only finds the segments the precise lag-1 estimate needs.
         let settled = rounds > 1 && next.breakpoints == segmentation.breakpoints;
         segmentation = next;
         if settled || rounds >= options.max_rounds {
-            break (noise, penalty, settled);
+            break (noise, penalty, settled, cost);
         }
     };
     let mut warnings = Vec::new();
@@ -219,9 +222,16 @@ pub fn analyse_drift(
     if deficient > 0 {
         warnings.push(DriftWarning::RankDeficientFrames { count: deficient });
     }
-    let mut long_run = model.clone();
-    long_run.inflate(&noise.long_run_inflation);
-    let estimates = describe(series, &model, &long_run, &segmentation, &penalty, options)?;
+    let long_run = model.inflation_for(&noise.long_run_inflation);
+    let fit = FinalFit {
+        model: &model,
+        long_run: &long_run,
+        cost: &cost,
+        segmentation: &segmentation,
+        penalty: &penalty,
+    };
+    let estimates = describe(series, &fit, options)?;
+    drop(cost);
     let online = replay_online(
         series,
         &model,
@@ -278,41 +288,48 @@ fn replay_online(
     }))
 }
 
+/// The final round of the analysis: the model under the search inflation, the long-run
+/// inflation of the intervals, the search cost, the segmentation and its penalty.
+struct FinalFit<'a> {
+    model: &'a EffectiveModel<'a>,
+    long_run: &'a Inflation,
+    cost: &'a EffectiveCost,
+    segmentation: &'a Segmentation,
+    penalty: &'a PenaltyCalibration,
+}
+
 /// Segment estimates and change points of a final segmentation: gains and p-values under the
 /// search model (the one the penalty is calibrated for), intervals under the long-run model.
 fn describe(
     series: &DeviationSeries,
-    model: &EffectiveModel,
-    long_run: &EffectiveModel,
-    segmentation: &Segmentation,
-    penalty: &PenaltyCalibration,
+    fit: &FinalFit,
     options: &DriftOptions,
 ) -> Result<(Vec<ChangePoint>, Vec<SegmentEstimate>), StatsError> {
-    let effective = long_run.effective_original();
+    let effective = |i: usize| fit.model.effective_original(i, fit.long_run);
     let x = &series.deviations();
-    let spans = segmentation.segments();
+    let spans = fit.segmentation.segments();
     let mut segments = Vec::with_capacity(spans.len());
     for &(start, end) in &spans {
         segments.push(SegmentEstimate {
             first_frame: series.frames()[start],
             last_frame: series.frames()[end - 1],
-            mean: weighted_mean(x, &effective, start, end, options.level)?,
-            scatter: excess_scatter(
+            mean: weighted_mean_by(x, start, end, options.level, effective)?,
+            scatter: excess_scatter_with_variances(
                 &x[start..end],
                 &series.information()[start..end],
-                &series.covariances()[start..end],
+                &series.variances()[start..end],
             )?,
         });
     }
-    let cost = model.cost()?;
+    let (cost, penalty) = (fit.cost, fit.penalty);
     let mut change_points = Vec::with_capacity(spans.len().saturating_sub(1));
     for (k, pair) in spans.windows(2).enumerate() {
         let ((a, b), (_, c)) = (pair[0], pair[1]);
         let shift = shift_between(&segments[k].mean, &segments[k + 1].mean, options.level)?;
         let gain = cost.cost(a, c) - cost.cost(a, b) - cost.cost(b, c);
-        let step = |i: usize| shift.shift.dot(&(effective[i] * shift.shift));
-        let before: Vec<f64> = (a..b).rev().map(step).collect();
-        let after: Vec<f64> = (b..c).map(step).collect();
+        let step = |i: usize| shift.shift.dot(&(effective(i) * shift.shift));
+        let before: Vec<f64> = (a..b).into_par_iter().rev().map(step).collect();
+        let after: Vec<f64> = (b..c).into_par_iter().map(step).collect();
         let settings = LocationSettings {
             runs: options.location.runs,
             seed: stream_seed(options.location.seed, k as u64),

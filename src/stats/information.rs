@@ -6,6 +6,7 @@
 
 use nalgebra::{Matrix6, SymmetricEigen, Vector6};
 
+use super::packed::PackedSym6;
 use super::StatsError;
 use crate::tol;
 
@@ -86,11 +87,12 @@ impl Spectrum {
     }
 }
 
-/// A frame's information matrix `W = P⁺` (pseudo-inverse of its covariance) and its rank.
+/// A frame's information matrix `W = P⁺` (pseudo-inverse of its covariance) and its rank,
+/// stored as the 21 entries of its upper triangle (long series keep one per frame).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Information {
-    matrix: Matrix6<f64>,
-    rank: usize,
+    matrix: PackedSym6,
+    rank: u8,
 }
 
 impl Information {
@@ -108,9 +110,17 @@ impl Information {
         }
         let scale = covariance.amax();
         let asymmetry = (covariance - covariance.transpose()).amax();
+        let limit = tol::COVARIANCE_ASYMMETRY_REL * scale;
+        if asymmetry <= limit {
+            if let Some(inverse) = well_conditioned_inverse(covariance) {
+                return Ok(Self {
+                    matrix: PackedSym6::from_matrix(&inverse),
+                    rank: 6,
+                });
+            }
+        }
         let spectrum = Spectrum::new(covariance, tol::COVARIANCE_RANK_REL);
         let raw_min = spectrum.smallest_raw;
-        let limit = tol::COVARIANCE_ASYMMETRY_REL * scale;
         if asymmetry > limit || raw_min < -limit {
             return Err(StatsError::NotCovariance {
                 index,
@@ -119,25 +129,49 @@ impl Information {
             });
         }
         Ok(Self {
-            matrix: spectrum.pseudo_inverse(),
-            rank: spectrum.rank,
+            matrix: PackedSym6::from_matrix(&spectrum.pseudo_inverse()),
+            rank: spectrum.rank as u8,
         })
     }
 
     /// The information matrix `W`.
-    pub fn matrix(&self) -> &Matrix6<f64> {
+    pub fn matrix(&self) -> Matrix6<f64> {
+        self.matrix.to_matrix()
+    }
+
+    /// The packed information matrix (21 upper-triangle entries).
+    pub fn packed(&self) -> &PackedSym6 {
         &self.matrix
+    }
+
+    /// Diagonal entry `W_jj` (zero for an axis the frame does not observe at all).
+    pub fn diagonal(&self, j: usize) -> f64 {
+        self.matrix.get(j, j)
     }
 
     /// The number of observable directions `r = rank(W)`.
     pub fn rank(&self) -> usize {
-        self.rank
+        usize::from(self.rank)
     }
 
     /// The squared Mahalanobis length `xᵀ W x` (chi-square with `rank` dof when `x ~ N(0, P)`).
     pub fn mahalanobis2(&self, x: &Vector6<f64>) -> f64 {
-        x.dot(&(self.matrix * x))
+        self.matrix.quadratic(x)
     }
+}
+
+/// The inverse of a covariance whose pseudo-inverse provably is its inverse, without an
+/// eigen-decomposition: the Cholesky factorisation of the symmetric part succeeds (positive
+/// definite) and `tr(P) · tr(P⁻¹)` is below [`tol::COVARIANCE_FAST_CONDITION`]. Since
+/// `λ_max <= tr(P)` and `λ_min >= 1/tr(P⁻¹)`, every eigenvalue then lies far above the rank floor
+/// [`tol::COVARIANCE_RANK_REL`] times the largest, so the eigen path would keep all six and return
+/// the same matrix up to rounding. `None` sends the covariance down the eigen path.
+fn well_conditioned_inverse(covariance: &Matrix6<f64>) -> Option<Matrix6<f64>> {
+    let sym = (covariance + covariance.transpose()) * 0.5;
+    let inverse = sym.cholesky()?.inverse();
+    let bound = sym.trace() * inverse.trace();
+    (bound.is_finite() && bound <= tol::COVARIANCE_FAST_CONDITION)
+        .then(|| (inverse + inverse.transpose()) * 0.5)
 }
 
 /// Pseudo-inverse and rank of a sum of information matrices, with the floor

@@ -32,6 +32,7 @@
 //! under correlated noise is accounted for (`penalty` module).
 
 use nalgebra::{Matrix6, Vector6};
+use rayon::prelude::*;
 
 use super::information::Spectrum;
 
@@ -228,11 +229,13 @@ pub fn estimate_effective_noise(
         .filter(|&t| 2 * t <= longest)
         .collect();
     let estimates: Vec<(usize, Matrix6<f64>, usize)> = grid
-        .iter()
+        .par_iter()
         .map(|&tau| {
             let (g, count) = scaled_allan(&sums, segments, tau);
             (tau, g, count)
         })
+        .collect::<Vec<_>>()
+        .into_iter()
         .filter(|(_, _, count)| *count > 0)
         .collect();
     if estimates.is_empty() {
@@ -455,18 +458,24 @@ const CHI2_1_MEDIAN: f64 = 0.454_936_423_119_572_8;
 /// Robust semivariogram `D(k) = median((u_{t+k} − u_t)²)/(2 · 0.4549)` of one direction over
 /// pairs inside the segments (a median, so that the few pairs straddling an unknown mean shift
 /// do not move it). `None` without pairs.
-fn robust_semivariogram(u: &[f64], segments: &[(usize, usize)], lag: usize) -> Option<f64> {
-    let mut squares: Vec<f64> = segments
-        .iter()
-        .filter(|(a, b)| b - a > lag)
-        .flat_map(|&(a, b)| (a..b - lag).map(move |t| (u[t + lag] - u[t]).powi(2)))
-        .collect();
+fn robust_semivariogram(
+    u: &[f64],
+    segments: &[(usize, usize)],
+    lag: usize,
+    squares: &mut Vec<u64>,
+) -> Option<f64> {
+    // Squares are never negative (nor NaN for finite samples), and the bit patterns of
+    // non-negative doubles order as the numbers do: selecting on the integers is exact.
+    squares.clear();
+    for &(a, b) in segments.iter().filter(|(a, b)| b - a > lag) {
+        squares.extend((a..b - lag).map(|t| (u[t + lag] - u[t]).powi(2).to_bits()));
+    }
     if squares.is_empty() {
         return None;
     }
     let mid = squares.len() / 2;
-    let (_, median, _) = squares.select_nth_unstable_by(mid, f64::total_cmp);
-    Some(*median / (2.0 * CHI2_1_MEDIAN))
+    let median = f64::from_bits(*squares.select_nth_unstable(mid).1);
+    Some(median / (2.0 * CHI2_1_MEDIAN))
 }
 
 /// Per active principal direction, from the robust semivariogram: the lag-1 autocorrelation
@@ -475,7 +484,8 @@ fn robust_semivariogram(u: &[f64], segments: &[(usize, usize)], lag: usize) -> O
 /// there). Differences of nearby samples are untouched by mean shifts (a few pairs across an
 /// unknown shift do not move the robust estimate). A fast vibration adds about as much to `D(1)`
 /// as to `D̄` and does not look like correlated noise; a slow one does (the penalty then errs
-/// high). Zero for inactive directions and where it cannot be measured.
+/// high). Zero for inactive directions and where it cannot be measured. The directions are
+/// independent and measured in parallel.
 fn robust_lag1_and_variance(
     z: &[Vector6<f64>],
     segments: &[(usize, usize)],
@@ -483,22 +493,31 @@ fn robust_lag1_and_variance(
     factors: &Vector6<f64>,
     far_lags: &[usize],
 ) -> (Vector6<f64>, Vector6<f64>) {
+    let measured: Vec<(usize, f64, f64)> = (0..6)
+        .into_par_iter()
+        .filter(|&j| factors[j] > 0.0)
+        .filter_map(|j| {
+            let direction = directions.column(j);
+            let u: Vec<f64> = z.iter().map(|v| direction.dot(v)).collect();
+            let mut squares = Vec::with_capacity(u.len());
+            let near = robust_semivariogram(&u, segments, 1, &mut squares);
+            let far: Option<Vec<f64>> = far_lags
+                .iter()
+                .map(|&lag| robust_semivariogram(&u, segments, lag, &mut squares))
+                .collect();
+            let far = far.map(|d| d.iter().sum::<f64>() / d.len() as f64)?;
+            let lag1 = match near.filter(|_| far > 0.0) {
+                Some(near) => (1.0 - near / far).clamp(0.0, 1.0),
+                None => 0.0,
+            };
+            Some((j, lag1, far))
+        })
+        .collect();
     let mut lag1 = Vector6::zeros();
     let mut variance = Vector6::zeros();
-    for j in (0..6).filter(|&j| factors[j] > 0.0) {
-        let u: Vec<f64> = z.iter().map(|v| directions.column(j).dot(v)).collect();
-        let near = robust_semivariogram(&u, segments, 1);
-        let far: Option<Vec<f64>> = far_lags
-            .iter()
-            .map(|&lag| robust_semivariogram(&u, segments, lag))
-            .collect();
-        let Some(far) = far.map(|d| d.iter().sum::<f64>() / d.len() as f64) else {
-            continue;
-        };
+    for (j, rho, far) in measured {
+        lag1[j] = rho;
         variance[j] = far;
-        if let Some(near) = near.filter(|_| far > 0.0) {
-            lag1[j] = (1.0 - near / far).clamp(0.0, 1.0);
-        }
     }
     (lag1, variance)
 }

@@ -10,6 +10,7 @@
 //! vibration that make every frame scatter more than its covariance says.
 
 use nalgebra::Vector6;
+use rayon::prelude::*;
 
 use super::distributions::chi2_quantile;
 use super::information::Information;
@@ -45,6 +46,7 @@ pub fn screen_gross_errors(
     }
     let n = x.len();
     let statistic: Vec<f64> = (0..n)
+        .into_par_iter()
         .map(|t| {
             let before = (t > 0).then(|| median(&x[t.saturating_sub(half)..t]));
             let after = (t + 1 < n).then(|| median(&x[t + 1..(t + 1 + half).min(n)]));
@@ -80,11 +82,10 @@ fn robust_scale(statistic: &[f64], information: &[Information]) -> Result<f64, S
         return Ok(1.0);
     }
     let mut ranks: Vec<usize> = information.iter().map(Information::rank).collect();
-    ranks.sort_unstable();
-    let rank = ranks[ranks.len() / 2].max(1);
-    let mut sorted = statistic.to_vec();
-    sorted.sort_by(f64::total_cmp);
-    let median = sorted[sorted.len() / 2];
+    let mid = ranks.len() / 2;
+    let rank = (*ranks.select_nth_unstable(mid).1).max(1);
+    let mut values = statistic.to_vec();
+    let median = *values.select_nth_unstable_by(mid, f64::total_cmp).1;
     Ok((median / chi2_quantile(0.5, rank as f64)?).max(1.0))
 }
 

@@ -50,9 +50,29 @@ pub fn weighted_mean(
             expected: "a non-empty range inside the series (start < end <= samples)",
         });
     }
+    weighted_mean_by(x, start, end, level, |i| w[i])
+}
+
+/// [`weighted_mean`] with the information of sample `i` given by `w(i)` (formed on demand,
+/// e.g. from a model, instead of stored for the whole series).
+pub fn weighted_mean_by(
+    x: &[Vector6<f64>],
+    start: usize,
+    end: usize,
+    level: f64,
+    w: impl Fn(usize) -> Matrix6<f64>,
+) -> Result<SegmentMean, StatsError> {
+    if start >= end || end > x.len() {
+        return Err(StatsError::InvalidParameter {
+            name: "segment range",
+            value: end as f64,
+            expected: "a non-empty range inside the series (start < end <= samples)",
+        });
+    }
     let z = normal_quantile(0.5 + 0.5 * level)?;
     let (a, b) = (start..end).fold((Matrix6::zeros(), Vector6::zeros()), |(a, b), i| {
-        (a + w[i], b + w[i] * x[i])
+        let wi = w(i);
+        (a + wi, b + wi * x[i])
     });
     let spectrum = information_sum_spectrum(&a);
     let covariance = spectrum.pseudo_inverse();

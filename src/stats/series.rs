@@ -6,9 +6,11 @@
 //! Gaussian cost into the plain squared-error cost of the whitened samples (O(d) per segment).
 
 use nalgebra::{Matrix6, Vector6};
+use rayon::prelude::*;
 
 use super::cost::{InformationCost, L2Cost, SegmentCost};
 use super::information::{information_sum_spectrum, Information, Spectrum};
+use super::packed::PackedSym6;
 use super::StatsError;
 use crate::tol;
 
@@ -22,52 +24,80 @@ pub struct DeviationSample {
     pub covariance: Matrix6<f64>,
 }
 
-/// A validated deviation series with each frame's information `W_t = P_t⁺`.
+/// A validated deviation series with each frame's information `W_t = P_t⁺`. Of the covariance
+/// only the diagonal (the per-axis variances) is kept: the information carries the rest.
 #[derive(Debug, Clone)]
 pub struct DeviationSeries {
     frames: Vec<i64>,
     times_s: Vec<f64>,
     deviations: Vec<Vector6<f64>>,
-    covariances: Vec<Matrix6<f64>>,
+    variances: Vec<Vector6<f64>>,
     information: Vec<Information>,
 }
 
 impl DeviationSeries {
     /// Validates the samples: finite values, frame numbers strictly increasing, covariances
-    /// symmetric positive semi-definite.
+    /// symmetric positive semi-definite. The first invalid sample is reported.
     pub fn new(samples: &[DeviationSample]) -> Result<Self, StatsError> {
-        let mut series = Self {
-            frames: Vec::with_capacity(samples.len()),
-            times_s: Vec::with_capacity(samples.len()),
-            deviations: Vec::with_capacity(samples.len()),
-            covariances: Vec::with_capacity(samples.len()),
-            information: Vec::with_capacity(samples.len()),
-        };
+        let mut previous: Option<i64> = None;
         for (index, s) in samples.iter().enumerate() {
-            if let Some(&previous) = series.frames.last() {
-                if s.frame <= previous {
-                    return Err(StatsError::FramesNotIncreasing {
-                        index,
-                        frame: s.frame,
-                        previous,
-                    });
-                }
+            if let Some(previous) = previous.filter(|&p| s.frame <= p) {
+                // An earlier sample with a bad covariance is reported first.
+                first_bad_covariance(&samples[..index])?;
+                return Err(StatsError::FramesNotIncreasing {
+                    index,
+                    frame: s.frame,
+                    previous,
+                });
             }
             if !s.time_s.is_finite() || s.deviation.iter().any(|v| !v.is_finite()) {
+                first_bad_covariance(&samples[..index])?;
                 return Err(StatsError::NonFinite {
                     index,
                     what: "time or deviation",
                 });
             }
-            series
-                .information
-                .push(Information::from_covariance(&s.covariance, index)?);
-            series.frames.push(s.frame);
-            series.times_s.push(s.time_s);
-            series.deviations.push(s.deviation);
-            series.covariances.push(s.covariance);
+            previous = Some(s.frame);
         }
-        Ok(series)
+        let information = samples
+            .par_iter()
+            .enumerate()
+            .map(|(index, s)| Information::from_covariance(&s.covariance, index))
+            .collect::<Result<Vec<_>, _>>();
+        let information = match information {
+            Ok(information) => information,
+            // Any failing sample will do for rayon; report the first one.
+            Err(error) => return Err(first_bad_covariance(samples).err().unwrap_or(error)),
+        };
+        Ok(Self {
+            frames: samples.iter().map(|s| s.frame).collect(),
+            times_s: samples.iter().map(|s| s.time_s).collect(),
+            deviations: samples.iter().map(|s| s.deviation).collect(),
+            variances: samples.iter().map(|s| s.covariance.diagonal()).collect(),
+            information,
+        })
+    }
+
+    /// Keeps the samples whose flag is set (in order); `keep` has one flag per sample.
+    pub fn retain(&mut self, keep: &[bool]) -> Result<(), StatsError> {
+        if keep.len() != self.len() {
+            return Err(StatsError::LengthMismatch {
+                what: "series samples and their keep flags",
+                left: self.len(),
+                right: keep.len(),
+            });
+        }
+        fn filter<T>(v: &mut Vec<T>, keep: &[bool]) {
+            let mut flags = keep.iter();
+            v.retain(|_| *flags.next().unwrap_or(&false));
+            v.shrink_to_fit();
+        }
+        filter(&mut self.frames, keep);
+        filter(&mut self.times_s, keep);
+        filter(&mut self.deviations, keep);
+        filter(&mut self.variances, keep);
+        filter(&mut self.information, keep);
+        Ok(())
     }
 
     pub fn len(&self) -> usize {
@@ -90,13 +120,22 @@ impl DeviationSeries {
         &self.deviations
     }
 
-    pub fn covariances(&self) -> &[Matrix6<f64>] {
-        &self.covariances
+    /// The per-axis variances (covariance diagonals) of each sample.
+    pub fn variances(&self) -> &[Vector6<f64>] {
+        &self.variances
     }
 
     pub fn information(&self) -> &[Information] {
         &self.information
     }
+}
+
+/// The error of the first sample whose covariance is not a covariance, if any.
+fn first_bad_covariance(samples: &[DeviationSample]) -> Result<(), StatsError> {
+    for (index, s) in samples.iter().enumerate() {
+        Information::from_covariance(&s.covariance, index)?;
+    }
+    Ok(())
 }
 
 /// The common whitening `z = L̄ (x − c)` with `W̄ = L̄ᵀL̄` the mean information (rows beyond
@@ -117,13 +156,13 @@ impl CommonWhitening {
     /// Builds the whitening of a series; fails when nothing is observable.
     pub fn new(series: &DeviationSeries) -> Result<Self, StatsError> {
         let n = series.len().max(1) as f64;
-        let (sum, weighted) = series
-            .information
-            .iter()
-            .zip(&series.deviations)
-            .fold((Matrix6::zeros(), Vector6::zeros()), |(a, b), (w, x)| {
-                (a + w.matrix(), b + w.matrix() * x)
-            });
+        let (sum, weighted) = series.information.iter().zip(&series.deviations).fold(
+            (Matrix6::zeros(), Vector6::zeros()),
+            |(a, b), (w, x)| {
+                let w = w.matrix();
+                (a + w, b + w * x)
+            },
+        );
         let spectrum = information_sum_spectrum(&(sum / n));
         if spectrum.rank == 0 {
             return Err(StatsError::Unobservable {
@@ -166,66 +205,157 @@ impl CommonWhitening {
 /// The series under the effective information: whitened samples and, per frame, the information
 /// after the noise inflation `Γ`: `Ω̃_t = (Ω_t^{+1/2} Γ Ω_t^{+1/2})⁺` (equal to `Γ⁻¹` for a frame
 /// with the mean information; an unobservable direction stays unobservable).
+///
+/// `Ω̃_t` is not stored: it is formed on demand from the nominal root `Ω_t^{1/2}` (decomposed once
+/// per frame) as `Ω_t^{1/2} Γ_a⁻¹ Ω_t^{1/2}` (`Γ_a` the active block of `Γ`), the same matrix as
+/// the definition whenever `Ω_t` has the full rank of the series and both are well conditioned
+/// ([`tol::EFFECTIVE_FAST_CONDITION`]); other frames take the definition's eigen path.
 #[derive(Debug, Clone)]
-pub struct EffectiveModel {
+pub struct EffectiveModel<'a> {
+    series: &'a DeviationSeries,
     pub whitening: CommonWhitening,
     pub z: Vec<Vector6<f64>>,
-    /// `Ω_t` (nominal, whitened coordinates).
-    pub nominal: Vec<Matrix6<f64>>,
     /// Whether every frame has the mean information (then `Ω̃_t = Γ⁻¹` for all `t`).
     pub common: bool,
-    /// `Ω̃_t`.
-    pub effective: Vec<Matrix6<f64>>,
+    /// `Ω_t^{1/2}` per frame (whitened coordinates).
+    roots: Vec<PackedSym6>,
+    /// Condition number of `Ω_t` over the active coordinates; infinite when the frame does not
+    /// have the full rank of the series (not regular).
+    conditions: Vec<f64>,
+    /// The current inflation.
+    inflation: Inflation,
 }
 
-impl EffectiveModel {
+/// A noise inflation `Γ` prepared for forming effective information matrices.
+#[derive(Debug, Clone)]
+pub struct Inflation {
+    matrix: Matrix6<f64>,
+    /// `Γ⁺` (eigen path, no floor): the effective information of every frame in a common series.
+    pseudo_inverse: Matrix6<f64>,
+    /// `Γ_a⁻¹` padded with zeros, when the active block is positive definite.
+    active_inverse: Option<Matrix6<f64>>,
+    /// `tr(Γ_a) · tr(Γ_a⁻¹)`, an upper bound on the condition number of `Γ_a`.
+    condition: f64,
+}
+
+impl Inflation {
+    /// Prepares `Γ` for a series with `dim` active whitened coordinates.
+    pub fn new(matrix: &Matrix6<f64>, dim: usize) -> Self {
+        let padded = Matrix6::from_fn(|r, c| match (r < dim, c < dim) {
+            (true, true) => 0.5 * (matrix[(r, c)] + matrix[(c, r)]),
+            (false, false) if r == c => 1.0,
+            _ => 0.0,
+        });
+        let active_inverse = padded.cholesky().map(|ch| {
+            let inverse = ch.inverse();
+            Matrix6::from_fn(|r, c| {
+                if r < dim && c < dim {
+                    0.5 * (inverse[(r, c)] + inverse[(c, r)])
+                } else {
+                    0.0
+                }
+            })
+        });
+        let active_trace = (0..dim).map(|k| padded[(k, k)]).sum::<f64>();
+        let condition = active_inverse
+            .map(|inverse| active_trace * inverse.trace())
+            .filter(|c| c.is_finite())
+            .unwrap_or(f64::INFINITY);
+        Self {
+            matrix: *matrix,
+            pseudo_inverse: Spectrum::new(matrix, 0.0).pseudo_inverse(),
+            active_inverse: active_inverse.filter(|_| condition.is_finite()),
+            condition,
+        }
+    }
+}
+
+impl<'a> EffectiveModel<'a> {
     /// Whitens a series (no inflation yet: `Γ = I`).
-    pub fn new(series: &DeviationSeries) -> Result<Self, StatsError> {
+    pub fn new(series: &'a DeviationSeries) -> Result<Self, StatsError> {
         let whitening = CommonWhitening::new(series)?;
+        let dim = whitening.dim;
         let z: Vec<Vector6<f64>> = series
             .deviations
-            .iter()
+            .par_iter()
             .map(|x| whitening.whiten(x))
             .collect();
-        let nominal: Vec<Matrix6<f64>> = series
+        let identity = active_identity(dim);
+        let limit = tol::COMMON_INFORMATION_REL * (dim as f64).sqrt();
+        let nominal: Vec<(PackedSym6, f64, bool)> = series
             .information
-            .iter()
-            .map(|w| whitening.information_in_whitened(w.matrix()))
+            .par_iter()
+            .map(|w| {
+                let omega = whitening.information_in_whitened(&w.matrix());
+                let spectrum = Spectrum::new(&omega, tol::INFORMATION_SUM_RANK_REL);
+                let condition = if spectrum.rank == dim {
+                    let kept = spectrum.values.iter().filter(|v| **v > 0.0);
+                    let (low, high) = kept.fold((f64::INFINITY, 0.0f64), |(lo, hi), &v| {
+                        (lo.min(v), hi.max(v))
+                    });
+                    high / low
+                } else {
+                    f64::INFINITY
+                };
+                let common = (omega - identity).norm() <= limit;
+                (PackedSym6::from_matrix(&spectrum.sqrt()), condition, common)
+            })
             .collect();
-        let identity = active_identity(whitening.dim);
-        let limit = tol::COMMON_INFORMATION_REL * (whitening.dim as f64).sqrt();
-        let common = nominal.iter().all(|o| (o - identity).norm() <= limit);
+        let common = nominal.iter().all(|n| n.2);
+        let (roots, conditions) = nominal.into_iter().map(|(r, c, _)| (r, c)).unzip();
         Ok(Self {
-            effective: nominal.clone(),
+            series,
+            inflation: Inflation::new(&identity, dim),
             whitening,
             z,
-            nominal,
             common,
+            roots,
+            conditions,
         })
     }
 
     /// Applies a noise inflation `Γ` (whitened coordinates).
     pub fn inflate(&mut self, inflation: &Matrix6<f64>) {
+        self.inflation = self.inflation_for(inflation);
+    }
+
+    /// Prepares another inflation (e.g. the long-run one) for [`effective_with`](Self::effective_with).
+    pub fn inflation_for(&self, inflation: &Matrix6<f64>) -> Inflation {
+        Inflation::new(inflation, self.whitening.dim)
+    }
+
+    /// `Ω̃_t` under the current inflation.
+    pub fn effective(&self, t: usize) -> Matrix6<f64> {
+        self.effective_with(t, &self.inflation)
+    }
+
+    /// `Ω̃_t` under a given inflation.
+    pub fn effective_with(&self, t: usize, inflation: &Inflation) -> Matrix6<f64> {
         if self.common {
-            let inverse = Spectrum::new(inflation, 0.0).pseudo_inverse();
-            self.effective.iter_mut().for_each(|e| *e = inverse);
-            return;
+            return inflation.pseudo_inverse;
         }
-        for (e, omega) in self.effective.iter_mut().zip(&self.nominal) {
-            let root = Spectrum::new(omega, tol::INFORMATION_SUM_RANK_REL).inverse_sqrt();
-            let covariance = root * inflation * root;
-            *e = Spectrum::new(&covariance, tol::INFORMATION_SUM_RANK_REL).pseudo_inverse();
+        if let Some(inverse) = &inflation.active_inverse {
+            if self.conditions[t] * inflation.condition <= tol::EFFECTIVE_FAST_CONDITION {
+                let root = self.roots[t].to_matrix();
+                return root * inverse * root;
+            }
         }
+        let omega = self.nominal(t);
+        let root = Spectrum::new(&omega, tol::INFORMATION_SUM_RANK_REL).inverse_sqrt();
+        let covariance = root * inflation.matrix * root;
+        Spectrum::new(&covariance, tol::INFORMATION_SUM_RANK_REL).pseudo_inverse()
+    }
+
+    /// `Ω_t` (nominal, whitened coordinates).
+    pub fn nominal(&self, t: usize) -> Matrix6<f64> {
+        let w = self.series.information[t].matrix();
+        self.whitening.information_in_whitened(&w)
     }
 
     /// Frames whose nominal information has the full rank of the series (others break the
     /// windows of the noise estimate: their unobserved components are arbitrary).
     pub fn regular(&self) -> Vec<bool> {
-        let dim = self.whitening.dim;
-        self.nominal
-            .iter()
-            .map(|o| Spectrum::new(o, tol::INFORMATION_SUM_RANK_REL).rank == dim)
-            .collect()
+        self.conditions.iter().map(|c| c.is_finite()).collect()
     }
 
     /// The segment cost under the effective information.
@@ -235,33 +365,31 @@ impl EffectiveModel {
                 &self.effective_whitened(),
             )?))
         } else {
-            Ok(EffectiveCost::PerFrame(InformationCost::new(
-                &self.z,
-                &self.effective,
+            Ok(EffectiveCost::PerFrame(InformationCost::from_frames(
+                self.z.len(),
                 self.whitening.dim,
-            )?))
+                |t| (self.z[t], self.effective(t)),
+            )))
         }
     }
 
     /// The effective-whitened samples `Ω̃_t^{1/2} z_t`: unit white noise under the effective model.
     pub fn effective_whitened(&self) -> Vec<Vector6<f64>> {
         if self.common {
-            let map = Spectrum::new(&self.effective[0], 0.0).sqrt();
+            let map = Spectrum::new(&self.inflation.pseudo_inverse, 0.0).sqrt();
             return self.z.iter().map(|z| map * z).collect();
         }
         self.z
-            .iter()
-            .zip(&self.effective)
-            .map(|(z, e)| Spectrum::new(e, 0.0).sqrt() * z)
+            .par_iter()
+            .enumerate()
+            .map(|(t, z)| Spectrum::new(&self.effective(t), 0.0).sqrt() * z)
             .collect()
     }
 
-    /// Effective information of every frame in the original coordinates.
-    pub fn effective_original(&self) -> Vec<Matrix6<f64>> {
-        self.effective
-            .iter()
-            .map(|o| self.whitening.information_in_original(o))
-            .collect()
+    /// Effective information of frame `t` under `inflation`, in the original coordinates.
+    pub fn effective_original(&self, t: usize, inflation: &Inflation) -> Matrix6<f64> {
+        self.whitening
+            .information_in_original(&self.effective_with(t, inflation))
     }
 }
 

@@ -3,6 +3,7 @@
 //! and the segment mounts the fixed-offset error is computed from.
 
 use nalgebra::Vector6;
+use rayon::prelude::*;
 
 use crate::geometry::{Mount, MountDeviation};
 use crate::stats::consistency::{
@@ -11,7 +12,6 @@ use crate::stats::consistency::{
 };
 use crate::stats::drift::Calibrators;
 use crate::stats::drift::{analyse_drift, DriftAnalysis, DriftOptions};
-use crate::stats::information::Information;
 use crate::stats::screening::screen_gross_errors;
 use crate::stats::series::{DeviationSample, DeviationSeries};
 use crate::stats::StatsError;
@@ -69,36 +69,43 @@ pub fn analyse(
     calibrators: &Calibrators,
 ) -> Result<Analysis, StatsError> {
     let (records, samples) = deviation_samples(solved);
-    let information = samples
-        .iter()
-        .enumerate()
-        .map(|(i, s)| Information::from_covariance(&s.covariance, i))
-        .collect::<Result<Vec<_>, _>>()?;
-    let deviations: Vec<Vector6<f64>> = samples.iter().map(|s| s.deviation).collect();
-    let screening =
-        screen_gross_errors(&deviations, &information, SCREEN_HALF_WINDOW, SCREEN_ALPHA)?;
+    // One validated series of every solved frame (each covariance inverted once); the screened
+    // frames are then dropped from it in place.
+    let mut series = DeviationSeries::new(&samples)?;
+    drop(samples);
+    let screening = screen_gross_errors(
+        series.deviations(),
+        series.information(),
+        SCREEN_HALF_WINDOW,
+        SCREEN_ALPHA,
+    )?;
     let mut sample_records = Vec::with_capacity(records.len());
     let mut screened_records = Vec::new();
-    let mut kept = Vec::with_capacity(samples.len());
-    let mut frame_tests = Vec::with_capacity(samples.len());
-    let screened = records.into_iter().zip(samples).zip(&information);
-    for (((record, sample), w), keep) in screened.zip(&screening.keep) {
+    for (record, keep) in records.into_iter().zip(&screening.keep) {
         if *keep {
-            frame_tests.push(frame_consistency(&sample.deviation, w));
             sample_records.push(record);
-            kept.push(sample);
         } else {
             screened_records.push(record);
         }
     }
-    let samples = kept;
+    series.retain(&screening.keep)?;
+    drop(screening);
+    // The drift analysis first: it holds the most per-frame data, so the per-frame test results
+    // are only made once it is done.
+    let drift = run_drift(&series, false_alarm_rate, calibrators)?;
+    let sample_segment = segment_of_samples(drift.as_ref(), series.len());
+    let frame_tests: Vec<ChiSquareTest> = series
+        .deviations()
+        .par_iter()
+        .zip(series.information())
+        .map(|(deviation, w)| frame_consistency(deviation, w))
+        .collect();
+    drop(series);
     let windows = if frame_tests.len() >= WINDOW_FRAMES {
         windowed_consistency(&frame_tests, WINDOW_FRAMES)?
     } else {
         Vec::new()
     };
-    let drift = run_drift(&samples, false_alarm_rate, calibrators)?;
-    let sample_segment = segment_of_samples(drift.as_ref(), samples.len());
     let segment_mounts = drift
         .as_ref()
         .map(|d| {
@@ -143,7 +150,7 @@ fn deviation_samples(solved: &Solved) -> (Vec<usize>, Vec<DeviationSample>) {
 }
 
 fn run_drift(
-    samples: &[DeviationSample],
+    series: &DeviationSeries,
     false_alarm_rate: f64,
     calibrators: &Calibrators,
 ) -> Result<Option<DriftAnalysis>, StatsError> {
@@ -152,11 +159,10 @@ fn run_drift(
         level: LEVEL,
         ..DriftOptions::default()
     };
-    if samples.len() < 2 * options.min_segment_samples {
+    if series.len() < 2 * options.min_segment_samples {
         return Ok(None);
     }
-    let series = DeviationSeries::new(samples)?;
-    analyse_drift(&series, &options, calibrators).map(Some)
+    analyse_drift(series, &options, calibrators).map(Some)
 }
 
 fn segment_of_samples(drift: Option<&DriftAnalysis>, n: usize) -> Vec<usize> {
