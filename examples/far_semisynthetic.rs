@@ -79,20 +79,23 @@ fn main() {
         let sim = Simulation::new(&scenario).expect("valid scenario");
         let setup = Setup::from_simulation(&sim, "clean");
         let captured = RefCell::new(Vec::new());
-        let capture = |records: &[mountdrift::offset::frames::FrameRecord]| {
-            *captured.borrow_mut() = records
-                .iter()
-                .filter_map(|r| {
-                    Some(DeviationSample {
-                        frame: r.frame as i64,
-                        time_s: r.time_s,
-                        deviation: r.deviation?,
-                        covariance: r.deviation_covariance?.to_matrix(),
+        let capture =
+            |records: &[mountdrift::offset::frames::FrameRecord],
+             covariances: &[Option<mountdrift::stats::packed::PackedSym6>]| {
+                *captured.borrow_mut() = records
+                    .iter()
+                    .zip(covariances)
+                    .filter_map(|(r, covariance)| {
+                        Some(DeviationSample {
+                            frame: r.frame as i64,
+                            time_s: r.time_s,
+                            deviation: r.deviation?,
+                            covariance: covariance.as_ref()?.to_matrix(),
+                        })
                     })
-                })
-                .collect::<Vec<_>>();
-            Vec::new()
-        };
+                    .collect::<Vec<_>>();
+                Vec::new()
+            };
         audit_frames_with_mounts(
             &setup,
             sim.frames().map(simulated),

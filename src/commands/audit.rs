@@ -11,6 +11,7 @@ use crate::offset::frames::FrameRecord;
 use crate::session::{InputError, Policy, Session};
 use crate::sim::{self, SimError, Simulation};
 use crate::stats::drift::Calibrators;
+use crate::stats::packed::PackedSym6;
 use crate::stats::StatsError;
 
 mod analysis;
@@ -108,7 +109,7 @@ pub fn audit_frames_with(
 
 /// Names the frames to leave out of the mount deviation series (e.g. gross pose errors), given
 /// every solved frame.
-pub type FrameScreen<'a> = &'a dyn Fn(&[FrameRecord]) -> Vec<u64>;
+pub type FrameScreen<'a> = &'a dyn Fn(&[FrameRecord], &[Option<PackedSym6>]) -> Vec<u64>;
 
 /// [`audit_frames`], also returning each segment's mount with its effective covariance (what
 /// `survey` and `compare` build on). With a `screen`, the frames it names keep their status but
@@ -133,17 +134,20 @@ fn audit_inner(
     calibrators: &Calibrators,
 ) -> Result<(AuditOutcome, SessionMounts), AuditError> {
     let mut solved = solve::solve_all(setup, frames, progress)?;
-    let mut screened = screen.map(|s| s(&solved.records)).unwrap_or_default();
+    let mut screened = screen
+        .map(|s| s(&solved.records, &solved.deviation_covariances))
+        .unwrap_or_default();
     screened.sort_unstable();
     screened.dedup();
-    for r in solved.records.iter_mut() {
+    let covariances = solved.deviation_covariances.iter_mut();
+    for (r, covariance) in solved.records.iter_mut().zip(covariances) {
         if screened.binary_search(&r.frame).is_ok() {
             r.deviation = None;
-            r.deviation_covariance = None;
+            *covariance = None;
         }
     }
     let analysis = analysis::analyse(
-        &solved,
+        &mut solved,
         policy.false_alarm_rate,
         setup.camera.pixel_sigma,
         calibrators,

@@ -16,8 +16,10 @@ use crate::commands::audit::{
     self, AuditError, AuditOutcome, ChangePoint, Deviation, FrameCounts, FrameInput,
     PixelSigmaCheck, SegmentMount, SessionMounts, Setup, Warning,
 };
+use crate::offset::frames::FrameRecord;
 use crate::session::{CameraFile, MountCi95File, MountFile, Policy};
 use crate::stats::distributions::normal_quantile;
+use crate::stats::packed::PackedSym6;
 
 mod precision;
 pub mod propagation;
@@ -156,13 +158,18 @@ pub struct SurveyOutcome {
     pub session_warnings: Vec<Warning>,
 }
 
+/// The survey's screen of gross frames: it looks at the poses only, not their covariances.
+fn gross_frames(records: &[FrameRecord], _: &[Option<PackedSym6>]) -> Vec<u64> {
+    screen::gross_frames(records)
+}
+
 /// Surveys the session of a manifest; `progress` hears the number of frames solved so far.
 pub fn run(options: &SurveyOptions, progress: &dyn Fn(u64)) -> Result<SurveyOutcome, SurveyError> {
     let (outcome, mounts) = audit::audit_manifest_with_mounts(
         &options.session,
         &options.policy,
         progress,
-        Some(&screen::gross_frames),
+        Some(&gross_frames),
     )?;
     survey_from_audit(&outcome, &mounts, &options.policy)
 }
@@ -174,13 +181,8 @@ pub fn survey_frames(
     policy: &Policy,
     progress: &dyn Fn(u64),
 ) -> Result<SurveyOutcome, SurveyError> {
-    let (outcome, mounts) = audit::audit_frames_with_mounts(
-        setup,
-        frames,
-        policy,
-        progress,
-        Some(&screen::gross_frames),
-    )?;
+    let (outcome, mounts) =
+        audit::audit_frames_with_mounts(setup, frames, policy, progress, Some(&gross_frames))?;
     survey_from_audit(&outcome, &mounts, policy)
 }
 

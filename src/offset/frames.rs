@@ -67,11 +67,10 @@ pub struct FrameRecord {
     pub time_s: f64,
     pub probe: Result<Fit, RejectionReason>,
     pub drogue: Result<Fit, RejectionReason>,
-    /// Deviation from the reference mount in report units (mm, deg) and its covariance, packed
-    /// (singular where the probe solution leaves a direction unobservable); present when the
-    /// probe was solved.
+    /// Deviation from the reference mount in report units (mm, deg); present when the probe was
+    /// solved. Its covariance travels beside the record ([`SolvedFrame`]), so that the
+    /// statistics can take it over and free it.
     pub deviation: Option<Vector6<f64>>,
-    pub deviation_covariance: Option<PackedSym6>,
     /// The drogue reference point in the camera frame (m); present when the drogue was solved.
     pub drogue_camera_m: Option<Vector3<f64>>,
     /// The dual-object probe-to-drogue vector in body axes (m): the drogue point mapped with
@@ -79,6 +78,10 @@ pub struct FrameRecord {
     /// were solved.
     pub dual_vector_m: Option<Vector3<f64>>,
 }
+
+/// A frame's record and the covariance of its mount deviation (report units, packed; singular
+/// where the probe solution leaves a direction unobservable), present when the probe was solved.
+pub type SolvedFrame = (FrameRecord, Option<PackedSym6>);
 
 impl FrameRecord {
     /// The vector a pipeline assuming `mount` would report (m), when the drogue was solved;
@@ -113,7 +116,7 @@ struct WarmStarts {
 
 impl FrameSolver<'_> {
     /// Solves a batch of frames (any length), in parallel blocks, keeping frame order.
-    pub fn solve_batch(&self, frames: &[FrameDetections]) -> Vec<FrameRecord> {
+    pub fn solve_batch(&self, frames: &[FrameDetections]) -> Vec<SolvedFrame> {
         frames
             .par_chunks(BLOCK_FRAMES)
             .flat_map_iter(|block| {
@@ -126,7 +129,7 @@ impl FrameSolver<'_> {
             .collect()
     }
 
-    fn solve_frame(&self, det: &FrameDetections, warm: &mut WarmStarts) -> FrameRecord {
+    fn solve_frame(&self, det: &FrameDetections, warm: &mut WarmStarts) -> SolvedFrame {
         let probe = solve_pose(
             self.camera,
             self.probe,
@@ -155,16 +158,16 @@ impl FrameSolver<'_> {
             }
             _ => None,
         };
-        FrameRecord {
+        let record = FrameRecord {
             frame: det.frame,
             time_s: det.time_s,
             probe: fit_or_reason(&probe),
             drogue: fit_or_reason(&drogue),
             deviation: deviation.map(|d| d.1),
-            deviation_covariance: deviation.map(|d| d.2),
             drogue_camera_m,
             dual_vector_m,
-        }
+        };
+        (record, deviation.map(|d| d.2))
     }
 }
 

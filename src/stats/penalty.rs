@@ -420,21 +420,24 @@ impl PenaltyCalibrator {
         let seed = stream_seed(self.settings.seed, key.lag1_index as u64);
         let runs = 0..self.settings.runs as u64;
         let null = if key.censored {
-            let firsts: Vec<(Vec<Vector6<f64>>, f64)> = runs
+            // The series are not kept between the passes (4000 of them would hold about 190 MB
+            // at 1000 samples): the second pass draws each again from its own stream.
+            let firsts: Vec<f64> = runs
                 .into_par_iter()
                 .map(|i| {
                     let y = null_series(key, stream_seed(seed, i));
-                    let cost = L2Cost::from_vectors(&y)?;
-                    let first = best_single_split_gain(&cost, key.min_size);
-                    Ok((y, first))
+                    Ok(best_single_split_gain(
+                        &L2Cost::from_vectors(&y)?,
+                        key.min_size,
+                    ))
                 })
                 .collect::<Result<_, StatsError>>()?;
-            let mut firsts_sorted: Vec<f64> = firsts.iter().map(|f| f.1).collect();
-            firsts_sorted.sort_by(f64::total_cmp);
-            let censor = upper_quantile(&firsts_sorted, CENSOR_RATE);
+            let censor = upper_quantile(&sorted(firsts.clone()), CENSOR_RATE);
             let resolved = firsts
                 .into_par_iter()
-                .map(|(y, first)| {
+                .enumerate()
+                .map(|(i, first)| {
+                    let y = null_series(key, stream_seed(seed, i as u64));
                     let cost = L2Cost::from_vectors(&y)?;
                     Ok(
                         match critical_penalty_above(&cost, key.min_size, first.max(censor))? {

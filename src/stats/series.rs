@@ -39,41 +39,82 @@ impl DeviationSeries {
     /// Validates the samples: finite values, frame numbers strictly increasing, covariances
     /// symmetric positive semi-definite. The first invalid sample is reported.
     pub fn new(samples: &[DeviationSample]) -> Result<Self, StatsError> {
+        Self::build(samples.len(), |i| {
+            let s = &samples[i];
+            (s.frame, s.time_s, s.deviation, s.covariance)
+        })
+    }
+
+    /// [`DeviationSeries::new`] from samples whose covariances are stored packed (symmetric by
+    /// construction), without a full 6x6 matrix per sample in memory.
+    pub fn from_packed(
+        frames: &[i64],
+        times_s: &[f64],
+        deviations: &[Vector6<f64>],
+        covariances: &[PackedSym6],
+    ) -> Result<Self, StatsError> {
+        let n = frames.len();
+        if times_s.len() != n || deviations.len() != n || covariances.len() != n {
+            return Err(StatsError::LengthMismatch {
+                what: "series frames and their times, deviations and covariances",
+                left: n,
+                right: times_s.len().min(deviations.len()).min(covariances.len()),
+            });
+        }
+        Self::build(n, |i| {
+            (
+                frames[i],
+                times_s[i],
+                deviations[i],
+                covariances[i].to_matrix(),
+            )
+        })
+    }
+
+    /// Validates and inverts `n` samples given by `sample(i)` = (frame, time, deviation,
+    /// covariance).
+    fn build(
+        n: usize,
+        sample: impl Fn(usize) -> (i64, f64, Vector6<f64>, Matrix6<f64>) + Sync,
+    ) -> Result<Self, StatsError> {
+        let first_bad_covariance = |end: usize| -> Result<(), StatsError> {
+            (0..end).try_for_each(|i| Information::from_covariance(&sample(i).3, i).map(|_| ()))
+        };
         let mut previous: Option<i64> = None;
-        for (index, s) in samples.iter().enumerate() {
-            if let Some(previous) = previous.filter(|&p| s.frame <= p) {
+        for index in 0..n {
+            let (frame, time_s, deviation, _) = sample(index);
+            if let Some(previous) = previous.filter(|&p| frame <= p) {
                 // An earlier sample with a bad covariance is reported first.
-                first_bad_covariance(&samples[..index])?;
+                first_bad_covariance(index)?;
                 return Err(StatsError::FramesNotIncreasing {
                     index,
-                    frame: s.frame,
+                    frame,
                     previous,
                 });
             }
-            if !s.time_s.is_finite() || s.deviation.iter().any(|v| !v.is_finite()) {
-                first_bad_covariance(&samples[..index])?;
+            if !time_s.is_finite() || deviation.iter().any(|v| !v.is_finite()) {
+                first_bad_covariance(index)?;
                 return Err(StatsError::NonFinite {
                     index,
                     what: "time or deviation",
                 });
             }
-            previous = Some(s.frame);
+            previous = Some(frame);
         }
-        let information = samples
-            .par_iter()
-            .enumerate()
-            .map(|(index, s)| Information::from_covariance(&s.covariance, index))
+        let information = (0..n)
+            .into_par_iter()
+            .map(|index| Information::from_covariance(&sample(index).3, index))
             .collect::<Result<Vec<_>, _>>();
         let information = match information {
             Ok(information) => information,
             // Any failing sample will do for rayon; report the first one.
-            Err(error) => return Err(first_bad_covariance(samples).err().unwrap_or(error)),
+            Err(error) => return Err(first_bad_covariance(n).err().unwrap_or(error)),
         };
         Ok(Self {
-            frames: samples.iter().map(|s| s.frame).collect(),
-            times_s: samples.iter().map(|s| s.time_s).collect(),
-            deviations: samples.iter().map(|s| s.deviation).collect(),
-            variances: samples.iter().map(|s| s.covariance.diagonal()).collect(),
+            frames: (0..n).map(|i| sample(i).0).collect(),
+            times_s: (0..n).map(|i| sample(i).1).collect(),
+            deviations: (0..n).map(|i| sample(i).2).collect(),
+            variances: (0..n).map(|i| sample(i).3.diagonal()).collect(),
             information,
         })
     }
@@ -131,13 +172,6 @@ impl DeviationSeries {
 }
 
 /// The error of the first sample whose covariance is not a covariance, if any.
-fn first_bad_covariance(samples: &[DeviationSample]) -> Result<(), StatsError> {
-    for (index, s) in samples.iter().enumerate() {
-        Information::from_covariance(&s.covariance, index)?;
-    }
-    Ok(())
-}
-
 /// The common whitening `z = L̄ (x − c)` with `W̄ = L̄ᵀL̄` the mean information (rows beyond
 /// its rank are zero) and `c` the overall information-weighted mean (for numerical range only).
 #[derive(Debug, Clone, PartialEq)]
@@ -282,7 +316,8 @@ impl<'a> EffectiveModel<'a> {
             .collect();
         let identity = active_identity(dim);
         let limit = tol::COMMON_INFORMATION_REL * (dim as f64).sqrt();
-        let nominal: Vec<(PackedSym6, f64, bool)> = series
+        // Unzipped as they are made: no per-frame tuple vector beside the two results.
+        let (roots, tagged): (Vec<PackedSym6>, Vec<(f64, bool)>) = series
             .information
             .par_iter()
             .map(|w| {
@@ -298,11 +333,14 @@ impl<'a> EffectiveModel<'a> {
                     f64::INFINITY
                 };
                 let common = (omega - identity).norm() <= limit;
-                (PackedSym6::from_matrix(&spectrum.sqrt()), condition, common)
+                (
+                    PackedSym6::from_matrix(&spectrum.sqrt()),
+                    (condition, common),
+                )
             })
-            .collect();
-        let common = nominal.iter().all(|n| n.2);
-        let (roots, conditions) = nominal.into_iter().map(|(r, c, _)| (r, c)).unzip();
+            .unzip();
+        let common = tagged.iter().all(|t| t.1);
+        let conditions = tagged.into_iter().map(|t| t.0).collect();
         Ok(Self {
             series,
             inflation: Inflation::new(&identity, dim),

@@ -13,7 +13,7 @@ use crate::stats::consistency::{
 use crate::stats::drift::Calibrators;
 use crate::stats::drift::{analyse_drift, DriftAnalysis, DriftOptions};
 use crate::stats::screening::screen_gross_errors;
-use crate::stats::series::{DeviationSample, DeviationSeries};
+use crate::stats::series::DeviationSeries;
 use crate::stats::StatsError;
 
 use super::solve::Solved;
@@ -63,16 +63,14 @@ pub fn shared_calibrators() -> &'static Calibrators {
 
 /// Runs every test on the solved session.
 pub fn analyse(
-    solved: &Solved,
+    solved: &mut Solved,
     false_alarm_rate: f64,
     assumed_sigma_px: f64,
     calibrators: &Calibrators,
 ) -> Result<Analysis, StatsError> {
-    let (records, samples) = deviation_samples(solved);
-    // One validated series of every solved frame (each covariance inverted once); the screened
-    // frames are then dropped from it in place.
-    let mut series = DeviationSeries::new(&samples)?;
-    drop(samples);
+    // One validated series of every solved frame (each covariance inverted once, then freed);
+    // the screened frames are then dropped from it in place.
+    let (records, mut series) = deviation_series(solved)?;
     let screening = screen_gross_errors(
         series.deviations(),
         series.information(),
@@ -132,21 +130,26 @@ pub fn mount_of(reference: &Mount, deviation: &Vector6<f64>) -> Mount {
     MountDeviation::from_report_vector(deviation).apply_to(reference)
 }
 
-fn deviation_samples(solved: &Solved) -> (Vec<usize>, Vec<DeviationSample>) {
-    solved
-        .records
-        .iter()
-        .enumerate()
-        .filter_map(|(i, r)| {
-            let sample = DeviationSample {
-                frame: r.frame as i64,
-                time_s: r.time_s,
-                deviation: r.deviation?,
-                covariance: r.deviation_covariance?.to_matrix(),
-            };
-            Some((i, sample))
-        })
-        .unzip()
+/// The deviation series of the records whose probe was solved (and not screened), with the
+/// record index of each sample. Takes the covariances over from `solved`: they are needed only
+/// to form the series' information.
+fn deviation_series(solved: &mut Solved) -> Result<(Vec<usize>, DeviationSeries), StatsError> {
+    let covariances = std::mem::take(&mut solved.deviation_covariances);
+    let mut records = Vec::new();
+    let (mut frames, mut times_s, mut deviations) = (Vec::new(), Vec::new(), Vec::new());
+    let mut packed = Vec::new();
+    for (i, (r, covariance)) in solved.records.iter().zip(&covariances).enumerate() {
+        if let (Some(deviation), Some(covariance)) = (r.deviation, covariance) {
+            records.push(i);
+            frames.push(r.frame as i64);
+            times_s.push(r.time_s);
+            deviations.push(deviation);
+            packed.push(*covariance);
+        }
+    }
+    drop(covariances);
+    let series = DeviationSeries::from_packed(&frames, &times_s, &deviations, &packed)?;
+    Ok((records, series))
 }
 
 fn run_drift(

@@ -7,6 +7,7 @@ use crate::offset::frames::{FrameRecord, FrameSolver};
 use crate::offset::observed_mount;
 use crate::pnp::{solve_pose, PnpOptions};
 use crate::session::{FrameDetections, InputError};
+use crate::stats::packed::PackedSym6;
 use nalgebra::Vector3;
 
 use super::input::{FrameInput, Setup};
@@ -19,6 +20,9 @@ const BATCH_FRAMES: usize = 4096;
 #[derive(Debug, Clone)]
 pub struct Solved {
     pub records: Vec<FrameRecord>,
+    /// The covariance of each record's mount deviation (packed), until the statistics take
+    /// them over (then empty).
+    pub deviation_covariances: Vec<Option<PackedSym6>>,
     /// The true probe-to-drogue vector in body axes (m) of each record's frame, when the
     /// session has truth (all the audit uses of a truth row).
     pub true_vector_m: Vec<Option<Vector3<f64>>>,
@@ -35,6 +39,7 @@ pub fn solve_all(
 ) -> Result<Solved, InputError> {
     let mut solved = Solved {
         records: Vec::new(),
+        deviation_covariances: Vec::new(),
         true_vector_m: Vec::new(),
         reference: setup.nominal.unwrap_or_else(|| Mount {
             position_m: Vector3::zeros(),
@@ -74,12 +79,16 @@ pub fn solve_all(
             let records = records.unwrap_or_else(|panic| std::panic::resume_unwind(panic));
             (records, read)
         };
-        solved.records.extend(records);
+        for (record, covariance) in records {
+            solved.records.push(record);
+            solved.deviation_covariances.push(covariance);
+        }
         progress(solved.records.len() as u64);
         next = read?;
     }
     // The records grew by doubling; give back the unused tail before the statistics run.
     solved.records.shrink_to_fit();
+    solved.deviation_covariances.shrink_to_fit();
     solved.true_vector_m.shrink_to_fit();
     Ok(solved)
 }
