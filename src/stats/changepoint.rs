@@ -272,6 +272,31 @@ impl<'a, C: SegmentCost> BoundedSearch<'a, C> {
         }
     }
 
+    /// Node `k` of level `j` seen from `end`: its starts, the least `F(t)` over them and
+    /// `C(node end, end)` (`tail` when already known); `None` when none of its starts is
+    /// admissible.
+    fn node(
+        &mut self,
+        j: usize,
+        k: usize,
+        end: usize,
+        tail: Option<f64>,
+    ) -> Option<(std::ops::Range<usize>, f64, f64)> {
+        let minimum = self.nodes[j][k];
+        if minimum == f64::INFINITY {
+            return None;
+        }
+        let size = LEAF_STARTS << j;
+        let node_end = (k + 1) * size;
+        let tail = tail.unwrap_or_else(|| self.cost_between(node_end, end));
+        Some((k * size..node_end, minimum, tail))
+    }
+
+    /// How far a lower bound may exceed `reference` by rounding alone.
+    fn slack(&self, bound: f64, reference: f64) -> f64 {
+        tol::PELT_BOUND_SLACK_REL * (1.0 + self.scale + bound.abs() + reference.abs())
+    }
+
     /// Lowers `minimum` to the smallest `F(t) + C(t, end)` over the admissible starts of node `k`
     /// of level `j` (a node that ends before `end`), skipping the parts whose lower bound
     /// `M + C(node end, end)` exceeds it by more than the rounding slack: every start that could
@@ -284,23 +309,15 @@ impl<'a, C: SegmentCost> BoundedSearch<'a, C> {
         minimum: &mut f64,
         tail: Option<f64>,
     ) {
-        let node_minimum = self.nodes[j][k];
-        if node_minimum == f64::INFINITY {
+        let Some((starts, node_minimum, tail)) = self.node(j, k, end, tail) else {
+            return;
+        };
+        let bound = node_minimum + tail;
+        if minimum.is_finite() && bound > *minimum + self.slack(bound, *minimum) {
             return;
         }
-        let size = LEAF_STARTS << j;
-        let node_end = (k + 1) * size;
-        let tail = tail.unwrap_or_else(|| self.cost_between(node_end, end));
-        let bound = node_minimum + tail;
-        if minimum.is_finite() {
-            let slack =
-                tol::PELT_BOUND_SLACK_REL * (1.0 + self.scale + bound.abs() + minimum.abs());
-            if bound > *minimum + slack {
-                return;
-            }
-        }
         if j == 0 {
-            if let Some(found) = self.minimum_total(k * size..node_end, end) {
+            if let Some(found) = self.minimum_total(starts, end) {
                 *minimum = minimum.min(found.total);
             }
         } else {
@@ -368,21 +385,15 @@ impl<'a, C: SegmentCost> BoundedSearch<'a, C> {
         incumbent: &mut Incumbent,
         tail: Option<f64>,
     ) {
-        let minimum = self.nodes[j][k];
-        if minimum == f64::INFINITY {
+        let Some((starts, minimum, tail)) = self.node(j, k, end, tail) else {
             return;
-        }
-        let size = LEAF_STARTS << j;
-        let node_end = (k + 1) * size;
-        let tail = tail.unwrap_or_else(|| self.cost_between(node_end, end));
+        };
         let bound = minimum + tail + self.penalty;
-        let slack =
-            tol::PELT_BOUND_SLACK_REL * (1.0 + self.scale + bound.abs() + incumbent.total.abs());
-        if bound > incumbent.total + slack {
+        if bound > incumbent.total + self.slack(bound, incumbent.total) {
             return;
         }
         if j == 0 {
-            self.evaluate(k * size..node_end, end, incumbent);
+            self.evaluate(starts, end, incumbent);
         } else {
             self.visit(j - 1, 2 * k, end, incumbent, None);
             self.visit(j - 1, 2 * k + 1, end, incumbent, Some(tail));
