@@ -39,18 +39,20 @@ impl DeviationSeries {
     /// Validates the samples: finite values, frame numbers strictly increasing, covariances
     /// symmetric positive semi-definite. The first invalid sample is reported.
     pub fn new(samples: &[DeviationSample]) -> Result<Self, StatsError> {
-        Self::build(samples.len(), |i| {
-            let s = &samples[i];
-            (s.frame, s.time_s, s.deviation, s.covariance)
-        })
+        Self::build(
+            samples.iter().map(|s| s.frame).collect(),
+            samples.iter().map(|s| s.time_s).collect(),
+            samples.iter().map(|s| s.deviation).collect(),
+            |i| samples[i].covariance,
+        )
     }
 
     /// [`DeviationSeries::new`] from samples whose covariances are stored packed (symmetric by
     /// construction), without a full 6x6 matrix per sample in memory.
     pub fn from_packed(
-        frames: &[i64],
-        times_s: &[f64],
-        deviations: &[Vector6<f64>],
+        frames: Vec<i64>,
+        times_s: Vec<f64>,
+        deviations: Vec<Vector6<f64>>,
         covariances: &[PackedSym6],
     ) -> Result<Self, StatsError> {
         let n = frames.len();
@@ -61,36 +63,33 @@ impl DeviationSeries {
                 right: times_s.len().min(deviations.len()).min(covariances.len()),
             });
         }
-        Self::build(n, |i| {
-            (
-                frames[i],
-                times_s[i],
-                deviations[i],
-                covariances[i].to_matrix(),
-            )
-        })
+        Self::build(frames, times_s, deviations, |i| covariances[i].to_matrix())
     }
 
-    /// Validates and inverts `n` samples given by `sample(i)` = (frame, time, deviation,
-    /// covariance).
+    /// Validates the samples and inverts each covariance `covariance(i)` once (equal lengths
+    /// are the callers' to ensure).
     fn build(
-        n: usize,
-        sample: impl Fn(usize) -> (i64, f64, Vector6<f64>, Matrix6<f64>) + Sync,
+        frames: Vec<i64>,
+        times_s: Vec<f64>,
+        deviations: Vec<Vector6<f64>>,
+        covariance: impl Fn(usize) -> Matrix6<f64> + Sync,
     ) -> Result<Self, StatsError> {
+        let n = frames.len();
         let first_bad_covariance = |end: usize| -> Result<(), StatsError> {
-            (0..end).try_for_each(|i| Information::from_covariance(&sample(i).3, i).map(|_| ()))
+            (0..end).try_for_each(|i| Information::from_covariance(&covariance(i), i).map(|_| ()))
         };
-        let mut previous: Option<i64> = None;
         for index in 0..n {
-            let (frame, time_s, deviation, _) = sample(index);
-            if let Some(previous) = previous.filter(|&p| frame <= p) {
-                // An earlier sample with a bad covariance is reported first.
-                first_bad_covariance(index)?;
-                return Err(StatsError::FramesNotIncreasing {
-                    index,
-                    frame,
-                    previous,
-                });
+            let (frame, time_s, deviation) = (frames[index], times_s[index], deviations[index]);
+            if let Some(&previous) = index.checked_sub(1).map(|p| &frames[p]) {
+                if frame <= previous {
+                    // An earlier sample with a bad covariance is reported first.
+                    first_bad_covariance(index)?;
+                    return Err(StatsError::FramesNotIncreasing {
+                        index,
+                        frame,
+                        previous,
+                    });
+                }
             }
             if !time_s.is_finite() || deviation.iter().any(|v| !v.is_finite()) {
                 first_bad_covariance(index)?;
@@ -99,22 +98,22 @@ impl DeviationSeries {
                     what: "time or deviation",
                 });
             }
-            previous = Some(frame);
         }
         let information = (0..n)
             .into_par_iter()
-            .map(|index| Information::from_covariance(&sample(index).3, index))
+            .map(|index| Information::from_covariance(&covariance(index), index))
             .collect::<Result<Vec<_>, _>>();
         let information = match information {
             Ok(information) => information,
             // Any failing sample will do for rayon; report the first one.
             Err(error) => return Err(first_bad_covariance(n).err().unwrap_or(error)),
         };
+        let variances = (0..n).map(|i| covariance(i).diagonal()).collect();
         Ok(Self {
-            frames: (0..n).map(|i| sample(i).0).collect(),
-            times_s: (0..n).map(|i| sample(i).1).collect(),
-            deviations: (0..n).map(|i| sample(i).2).collect(),
-            variances: (0..n).map(|i| sample(i).3.diagonal()).collect(),
+            frames,
+            times_s,
+            deviations,
+            variances,
             information,
         })
     }
@@ -459,4 +458,55 @@ impl SegmentCost for EffectiveCost {
 
 fn active_identity(dim: usize) -> Matrix6<f64> {
     Matrix6::from_fn(|r, c| if r == c && r < dim { 1.0 } else { 0.0 })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn sample(frame: i64, covariance: Matrix6<f64>) -> DeviationSample {
+        DeviationSample {
+            frame,
+            time_s: frame as f64 / 30.0,
+            deviation: Vector6::repeat(0.1 * frame as f64),
+            covariance,
+        }
+    }
+
+    #[test]
+    fn packed_and_full_covariances_give_the_same_series() {
+        let covariance = Matrix6::from_fn(|r, c| if r == c { 2.0 + r as f64 } else { 0.1 });
+        let samples: Vec<_> = (0..4).map(|f| sample(f, covariance)).collect();
+        let full = DeviationSeries::new(&samples).unwrap();
+        let packed = DeviationSeries::from_packed(
+            samples.iter().map(|s| s.frame).collect(),
+            samples.iter().map(|s| s.time_s).collect(),
+            samples.iter().map(|s| s.deviation).collect(),
+            &vec![PackedSym6::from_matrix(&covariance); 4],
+        )
+        .unwrap();
+        assert_eq!(full.frames(), packed.frames());
+        assert_eq!(full.variances(), packed.variances());
+        assert_eq!(full.information(), packed.information());
+    }
+
+    #[test]
+    fn reports_the_first_bad_sample() {
+        let good = Matrix6::identity();
+        let mut bad = Matrix6::identity();
+        bad[(0, 0)] = -1.0;
+        let unordered = [sample(1, good), sample(3, good), sample(2, good)];
+        assert!(matches!(
+            DeviationSeries::new(&unordered),
+            Err(StatsError::FramesNotIncreasing { index: 2, .. })
+        ));
+        // A bad covariance before the unordered frame is named first.
+        let both = [sample(1, good), sample(3, bad), sample(2, good)];
+        assert!(matches!(
+            DeviationSeries::new(&both),
+            Err(StatsError::NotCovariance { index: 1, .. })
+        ));
+        let lengths = DeviationSeries::from_packed(vec![1, 2], vec![0.0], vec![], &[]);
+        assert!(matches!(lengths, Err(StatsError::LengthMismatch { .. })));
+    }
 }

@@ -148,7 +148,7 @@ fn deviation_series(solved: &mut Solved) -> Result<(Vec<usize>, DeviationSeries)
         }
     }
     drop(covariances);
-    let series = DeviationSeries::from_packed(&frames, &times_s, &deviations, &packed)?;
+    let series = DeviationSeries::from_packed(frames, times_s, deviations, &packed)?;
     Ok((records, series))
 }
 
