@@ -4,14 +4,14 @@
 //!
 //! Usage: cargo run --release --example far_mixture -- N TRIALS ALPHA SHARE RHO [JITTER]
 
-use mountdrift::stats::drift::{analyse_drift, Calibrators, DriftOptions};
 use mountdrift::stats::penalty::stream_seed;
-use mountdrift::stats::segments::LocationSettings;
-use mountdrift::stats::series::{DeviationSample, DeviationSeries};
+use mountdrift::stats::series::DeviationSample;
 use nalgebra::{Matrix6, Vector6};
 use rand::{RngExt, SeedableRng};
 use rand_distr::{Distribution, StandardNormal};
 use rand_pcg::Pcg64Mcg;
+
+mod common;
 
 fn normal(rng: &mut Pcg64Mcg) -> f64 {
     Distribution::<f64>::sample(&StandardNormal, rng)
@@ -47,25 +47,14 @@ fn main() {
     let (n, trials, alpha, share, rho) =
         (args[0] as usize, args[1] as u64, args[2], args[3], args[4]);
     let jitter = args.get(5).copied().unwrap_or(0.0);
-    let calibrators = Calibrators::default();
-    let options = DriftOptions {
-        false_alarm_rate: alpha,
-        location: LocationSettings { runs: 200, seed: 1 },
-        ..DriftOptions::default()
-    };
-    let mut alarms = 0;
-    let mut lags = Vec::new();
-    for i in 0..trials {
-        let s = DeviationSeries::new(&series(stream_seed(77, i), n, share, rho, jitter)).unwrap();
-        let a = analyse_drift(&s, &options, &calibrators).unwrap();
-        alarms += usize::from(!a.change_points.is_empty());
-        lags.push(a.penalty.null_lag1);
-    }
-    lags.sort_by(f64::total_cmp);
+    let analysis = common::Analysis::new(alpha);
+    let (alarms, median_lag1) = analysis.count(trials, |i| {
+        series(stream_seed(77, i), n, share, rho, jitter)
+    });
     println!(
         "n={n} share={share} rho={rho} jitter={jitter} alpha={alpha}: {alarms} of {trials} \
          (expected {:.1}); null lag1 median {:.2}",
         alpha * trials as f64,
-        lags[lags.len() / 2]
+        median_lag1
     );
 }

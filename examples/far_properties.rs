@@ -6,14 +6,14 @@
 //! Usage: cargo run --release --example far_properties -- N TRIALS ALPHA MODE
 //! MODE: base | unequal | rotated | slow | slow_shape
 
-use mountdrift::stats::drift::{analyse_drift, Calibrators, DriftOptions};
 use mountdrift::stats::penalty::stream_seed;
-use mountdrift::stats::segments::LocationSettings;
-use mountdrift::stats::series::{DeviationSample, DeviationSeries};
+use mountdrift::stats::series::DeviationSample;
 use nalgebra::{Matrix6, Vector6};
 use rand::{RngExt, SeedableRng};
 use rand_distr::{Distribution, StandardNormal};
 use rand_pcg::Pcg64Mcg;
+
+mod common;
 
 const RHO: f64 = 0.8;
 
@@ -77,24 +77,11 @@ fn main() {
     let trials: u64 = args[1].parse().expect("TRIALS");
     let alpha: f64 = args[2].parse().expect("ALPHA");
     let mode = args[3].as_str();
-    let calibrators = Calibrators::default();
-    let options = DriftOptions {
-        false_alarm_rate: alpha,
-        location: LocationSettings { runs: 200, seed: 1 },
-        ..DriftOptions::default()
-    };
-    let mut alarms = 0;
-    let mut lags = Vec::new();
-    for i in 0..trials {
-        let s = DeviationSeries::new(&series(stream_seed(77, i), n, mode)).unwrap();
-        let a = analyse_drift(&s, &options, &calibrators).unwrap();
-        alarms += usize::from(!a.change_points.is_empty());
-        lags.push(a.penalty.null_lag1);
-    }
-    lags.sort_by(f64::total_cmp);
+    let analysis = common::Analysis::new(alpha);
+    let (alarms, median_lag1) = analysis.count(trials, |i| series(stream_seed(77, i), n, mode));
     println!(
         "mode={mode} n={n} alpha={alpha}: {alarms} of {trials} (expected {:.1}); null lag1 median {:.2}",
         alpha * trials as f64,
-        lags[lags.len() / 2]
+        median_lag1
     );
 }

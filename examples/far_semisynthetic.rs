@@ -10,26 +10,19 @@ use std::cell::RefCell;
 use mountdrift::commands::audit::{audit_frames_with_mounts, simulated, Setup};
 use mountdrift::session::Policy;
 use mountdrift::sim::{preset, Simulation};
-use mountdrift::stats::drift::{analyse_drift, Calibrators, DriftOptions};
-use mountdrift::stats::information::Information;
+use mountdrift::stats::information::{Information, Spectrum};
 use mountdrift::stats::penalty::stream_seed;
 use mountdrift::stats::screening::screen_gross_errors;
-use mountdrift::stats::segments::LocationSettings;
-use mountdrift::stats::series::{DeviationSample, DeviationSeries};
-use nalgebra::{Matrix6, SymmetricEigen, Vector6};
+use mountdrift::stats::series::DeviationSample;
+use nalgebra::{Matrix6, Vector6};
 use rand::SeedableRng;
 use rand_distr::{Distribution, StandardNormal};
 use rand_pcg::Pcg64Mcg;
 
+mod common;
+
 const SHARE: f64 = 0.265;
 const RHO: f64 = 0.8;
-
-fn sqrt_psd(m: &Matrix6<f64>) -> Matrix6<f64> {
-    let e = SymmetricEigen::new(*m);
-    e.eigenvectors
-        * Matrix6::from_diagonal(&e.eigenvalues.map(|v| v.max(0.0).sqrt()))
-        * e.eigenvectors.transpose()
-}
 
 fn synthetic(real: &[DeviationSample], seed: u64, flat: bool) -> Vec<DeviationSample> {
     let mut rng = Pcg64Mcg::seed_from_u64(seed);
@@ -43,7 +36,7 @@ fn synthetic(real: &[DeviationSample], seed: u64, flat: bool) -> Vec<DeviationSa
             let unit = draw() * (1.0 - SHARE).sqrt() + e * SHARE.sqrt();
             let covariance = if flat { mean } else { s.covariance };
             DeviationSample {
-                deviation: sqrt_psd(&covariance) * unit,
+                deviation: Spectrum::new(&covariance, 0.0).sqrt() * unit,
                 covariance,
                 ..s.clone()
             }
@@ -56,19 +49,10 @@ fn main() {
     let seconds: f64 = args[0].parse().expect("SECONDS");
     let runs: u64 = args[1].parse().expect("N");
     let alpha: f64 = args[2].parse().expect("ALPHA");
-    let calibrators = Calibrators::default();
-    let options = DriftOptions {
-        false_alarm_rate: alpha,
-        location: LocationSettings { runs: 200, seed: 1 },
-        ..DriftOptions::default()
-    };
+    let analysis = common::Analysis::new(alpha);
     let alarm = |samples: &[DeviationSample]| {
-        let s = DeviationSeries::new(samples).unwrap();
-        let a = analyse_drift(&s, &options, &calibrators).unwrap();
-        (
-            usize::from(!a.change_points.is_empty()),
-            a.penalty.null_lag1,
-        )
+        let (alarm, lag1) = analysis.alarm(samples);
+        (usize::from(alarm), lag1)
     };
     let mut counts = [0usize; 3];
     for seed in 1..=runs {
