@@ -1,5 +1,6 @@
 //! Whole-audit speed: the built-in demo (9,000 frames, 8 probe and 11 drogue keypoints) in
-//! memory, with the process-wide calibrations warm and cold, and a 100,000-frame session of the
+//! memory, with the process-wide calibrations warm and cold (read from the precomputed null
+//! distributions, or all simulated), and a 100,000-frame session of the
 //! same scenario read from disk (detections CSV, camera, models, mount). Figures are recorded in
 //! docs/benchmarks.md ("Audit speed and memory").
 
@@ -12,6 +13,8 @@ use mountdrift::commands::audit::{self, AuditOptions, SessionSource, Setup};
 use mountdrift::session::Policy;
 use mountdrift::sim::{preset, writer::write_session, Simulation};
 use mountdrift::stats::drift::Calibrators;
+use mountdrift::stats::online::{OnlineCalibrator, OnlineSettings};
+use mountdrift::stats::penalty::{CalibrationSettings, PenaltyCalibrator};
 
 fn demo(c: &mut Criterion) {
     let mut group = c.benchmark_group("audit_demo_9000_frames");
@@ -27,9 +30,22 @@ fn demo(c: &mut Criterion) {
     let scenario = preset(audit::DEMO_PRESET).unwrap();
     let simulation = Simulation::new(&scenario).unwrap();
     let setup = Setup::from_simulation(&simulation, "demo");
+    // A fresh process: the calibrators read the precomputed null distributions.
     group.bench_function("cold_calibration", |b| {
         b.iter(|| {
             let calibrators = Calibrators::default();
+            let frames = simulation.frames().map(audit::simulated);
+            audit::audit_frames_with(&setup, frames, &Policy::default(), &calibrators, &|_| {})
+                .unwrap()
+        })
+    });
+    // The same without them: every null distribution simulated.
+    group.bench_function("cold_simulated_calibration", |b| {
+        b.iter(|| {
+            let calibrators = Calibrators {
+                penalty: PenaltyCalibrator::simulating(CalibrationSettings::default()),
+                online: OnlineCalibrator::simulating(OnlineSettings::default()),
+            };
             let frames = simulation.frames().map(audit::simulated);
             audit::audit_frames_with(&setup, frames, &Policy::default(), &calibrators, &|_| {})
                 .unwrap()

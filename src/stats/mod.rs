@@ -14,6 +14,8 @@
 //!   reproduces the Python package ruptures bit for bit in its breakpoints).
 //! - [`noise`]: the effective (correlated, vibrating) noise level estimated from the data.
 //! - [`penalty`]: the change-point penalty that gives a chosen false-alarm rate.
+//! - [`null_table`]: the null distributions of the penalty and online threshold simulated ahead
+//!   of time for the classes every long audit meets.
 //! - [`segments`]: segment means, change-point shifts and location intervals.
 //! - [`drift`]: the whole offline analysis of one deviation series.
 //! - [`online`]: tabular CUSUM and MEWMA detectors, alarm frame and delay.
@@ -29,6 +31,7 @@ pub mod drift;
 pub mod information;
 pub mod multivariate;
 pub mod noise;
+pub mod null_table;
 pub mod online;
 pub mod packed;
 pub mod penalty;

@@ -101,7 +101,7 @@ impl Mewma {
 
 /// The session's online detector: a MEWMA on the effective-whitened deviations after an initial
 /// reference window, whose mean is taken as the in-control state.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct OnlineSettings {
     /// MEWMA smoothing constant.
     pub lambda: f64,
@@ -150,7 +150,11 @@ pub struct SessionNull {
 }
 
 /// The largest `T²` of one simulated clean session (after the warm-up).
-fn null_session_maximum(null: &SessionNull, settings: &OnlineSettings, seed: u64) -> f64 {
+pub(crate) fn null_session_maximum(
+    null: &SessionNull,
+    settings: &OnlineSettings,
+    seed: u64,
+) -> f64 {
     let mut rng = Pcg64Mcg::seed_from_u64(seed);
     let z = ar1_series(&mut rng, null.n, null.dim, null.lag1);
     let scales = NoiseScales::for_min_size(null.min_size);
@@ -168,20 +172,57 @@ fn null_session_maximum(null: &SessionNull, settings: &OnlineSettings, seed: u64
 /// Length, dimension, AR(1) coefficient bits and minimum segment of a simulated null.
 type NullKey = (usize, usize, u64, usize);
 
+/// The seed of simulated run `run` of the clean sessions `null`: one stream per noise class,
+/// one sub-stream per run.
+pub(crate) fn session_run_seed(settings: &OnlineSettings, null: &SessionNull, run: u64) -> u64 {
+    stream_seed(stream_seed(settings.seed, null.lag1.to_bits()), run)
+}
+
+/// The sorted session maxima of `T²` over the simulated clean sessions `null`.
+pub(crate) fn simulate_maxima(settings: &OnlineSettings, null: &SessionNull) -> Vec<f64> {
+    let mut maxima: Vec<f64> = (0..settings.runs.max(1) as u64)
+        .into_par_iter()
+        .map(|i| null_session_maximum(null, settings, session_run_seed(settings, null, i)))
+        .collect();
+    maxima.sort_by(f64::total_cmp);
+    maxima
+}
+
 /// Calibrates session MEWMA thresholds ([`calibrate`](Self::calibrate)) and remembers each
 /// simulated null distribution, so that sessions of the same length and noise class share one.
-#[derive(Debug, Default)]
+/// The classes every long audit meets are simulated ahead of time (`null_table`): with the
+/// default settings they are read instead of simulated, with identical results.
+#[derive(Debug)]
 pub struct OnlineCalibrator {
     settings: OnlineSettings,
     cache: Mutex<HashMap<NullKey, Arc<Vec<f64>>>>,
+    /// Whether the precomputed null distributions may serve a class.
+    tabulated: bool,
+}
+
+impl Default for OnlineCalibrator {
+    fn default() -> Self {
+        Self::new(OnlineSettings::default())
+    }
 }
 
 impl OnlineCalibrator {
-    /// A calibrator for the detector and simulation described by `settings`.
+    /// A calibrator for the detector and simulation described by `settings` (served by the
+    /// precomputed null distributions where they were made with the same settings).
     pub fn new(settings: OnlineSettings) -> Self {
         Self {
             settings,
             cache: Mutex::new(HashMap::new()),
+            tabulated: true,
+        }
+    }
+
+    /// A calibrator that simulates every null distribution it needs, never reading the
+    /// precomputed ones (to make or check them).
+    pub fn simulating(settings: OnlineSettings) -> Self {
+        Self {
+            tabulated: false,
+            ..Self::new(settings)
         }
     }
 
@@ -228,12 +269,11 @@ impl OnlineCalibrator {
         if let Some(found) = lock().get(&key) {
             return found.clone();
         }
-        let seed = stream_seed(self.settings.seed, null.lag1.to_bits());
-        let mut maxima: Vec<f64> = (0..self.settings.runs.max(1) as u64)
-            .into_par_iter()
-            .map(|i| null_session_maximum(null, &self.settings, stream_seed(seed, i)))
-            .collect();
-        maxima.sort_by(f64::total_cmp);
+        let tabulated = self
+            .tabulated
+            .then(|| super::null_table::online_maxima(&self.settings, null))
+            .flatten();
+        let maxima = tabulated.unwrap_or_else(|| simulate_maxima(&self.settings, null));
         let maxima = Arc::new(maxima);
         lock().insert(key, maxima.clone());
         maxima

@@ -119,7 +119,7 @@ pub fn tolerance_bound(
 }
 
 /// How penalties are calibrated.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct CalibrationSettings {
     /// Number of simulated clean series.
     pub runs: usize,
@@ -280,7 +280,7 @@ pub fn ar1_series(rng: &mut Pcg64Mcg, n: usize, dim: usize, rho: f64) -> Vec<Vec
 }
 
 /// One simulated clean series, rescaled by its own effective-noise estimate as the data are.
-fn null_series(key: &NullKey, seed: u64) -> Vec<Vector6<f64>> {
+pub(crate) fn null_series(key: &NullKey, seed: u64) -> Vec<Vector6<f64>> {
     let mut rng = Pcg64Mcg::seed_from_u64(seed);
     let z = ar1_series(&mut rng, key.n, key.dim, NULL_LAG1_GRID[key.lag1_index]);
     let noise = estimate_effective_noise(
@@ -293,6 +293,12 @@ fn null_series(key: &NullKey, seed: u64) -> Vec<Vector6<f64>> {
     z.iter().map(|v| map * v).collect()
 }
 
+/// The seed of simulated run `run` of the null `key`: one stream per noise class, one sub-stream
+/// per run, so results do not depend on how the runs are scheduled.
+pub(crate) fn run_seed(settings: &CalibrationSettings, key: &NullKey, run: u64) -> u64 {
+    stream_seed(stream_seed(settings.seed, key.lag1_index as u64), run)
+}
+
 /// Rates up to this one are served by a censored null distribution (see
 /// [`PenaltyCalibrator`]); larger ones simulate every `β*` in full.
 pub const CENSOR_RATE: f64 = 0.2;
@@ -300,36 +306,59 @@ pub const CENSOR_RATE: f64 = 0.2;
 /// A simulated null distribution: the sorted `β*` values of the runs. Values at or below
 /// `censor` may be lower bounds (runs only shown to have `β* <= censor`); `censored` counts them.
 #[derive(Debug)]
-struct NullDistribution {
-    sorted: Arc<Vec<f64>>,
-    censor: f64,
-    censored: usize,
+pub(crate) struct NullDistribution {
+    pub(crate) sorted: Arc<Vec<f64>>,
+    pub(crate) censor: f64,
+    pub(crate) censored: usize,
 }
 
+/// What a simulated null distribution depends on (besides the calibration settings).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
-struct NullKey {
-    n: usize,
-    dim: usize,
-    min_size: usize,
-    lag1_index: usize,
+pub(crate) struct NullKey {
+    pub(crate) n: usize,
+    pub(crate) dim: usize,
+    pub(crate) min_size: usize,
+    /// Index of the AR(1) coefficient in [`NULL_LAG1_GRID`].
+    pub(crate) lag1_index: usize,
     /// Whether runs whose `β*` is below the censoring level may stop early.
-    censored: bool,
+    pub(crate) censored: bool,
 }
 
 /// Calibrates penalties by simulation and remembers each simulated null distribution, so that
 /// many series of the same length and noise class (simulations, sensitivity studies) share one.
-#[derive(Debug, Default)]
+/// The classes every long audit meets are simulated ahead of time (`null_table`): with the
+/// default settings they are read instead of simulated, with identical results.
+#[derive(Debug)]
 pub struct PenaltyCalibrator {
     settings: CalibrationSettings,
     cache: Mutex<HashMap<NullKey, Arc<NullDistribution>>>,
+    /// Whether the precomputed null distributions may serve a class.
+    tabulated: bool,
+}
+
+impl Default for PenaltyCalibrator {
+    fn default() -> Self {
+        Self::new(CalibrationSettings::default())
+    }
 }
 
 impl PenaltyCalibrator {
-    /// A calibrator with the given settings.
+    /// A calibrator with the given settings (served by the precomputed null distributions where
+    /// they were made with the same settings).
     pub fn new(settings: CalibrationSettings) -> Self {
         Self {
             settings,
             cache: Mutex::new(HashMap::new()),
+            tabulated: true,
+        }
+    }
+
+    /// A calibrator that simulates every null distribution it needs, never reading the
+    /// precomputed ones (to make or check them).
+    pub fn simulating(settings: CalibrationSettings) -> Self {
+        Self {
+            tabulated: false,
+            ..Self::new(settings)
         }
     }
 
@@ -417,56 +446,13 @@ impl PenaltyCalibrator {
         if let Some(found) = self.lock().get(key) {
             return Ok(found.clone());
         }
-        let seed = stream_seed(self.settings.seed, key.lag1_index as u64);
-        let runs = 0..self.settings.runs as u64;
-        let null = if key.censored {
-            // The series are not kept between the passes (4000 of them would hold about 190 MB
-            // at 1000 samples): the second pass draws each again from its own stream.
-            let firsts: Vec<f64> = runs
-                .into_par_iter()
-                .map(|i| {
-                    let y = null_series(key, stream_seed(seed, i));
-                    Ok(best_single_split_gain(
-                        &L2Cost::from_vectors(&y)?,
-                        key.min_size,
-                    ))
-                })
-                .collect::<Result<_, StatsError>>()?;
-            let censor = upper_quantile(&sorted(firsts.clone()), CENSOR_RATE);
-            let resolved = firsts
-                .into_par_iter()
-                .enumerate()
-                .map(|(i, first)| {
-                    let y = null_series(key, stream_seed(seed, i as u64));
-                    let cost = L2Cost::from_vectors(&y)?;
-                    Ok(
-                        match critical_penalty_above(&cost, key.min_size, first.max(censor))? {
-                            Some(beta) => (beta, false),
-                            None if first >= censor => (first, false),
-                            None => (first, true),
-                        },
-                    )
-                })
-                .collect::<Result<Vec<(f64, bool)>, StatsError>>()?;
-            let censored = resolved.iter().filter(|r| r.1).count();
-            NullDistribution {
-                sorted: Arc::new(sorted(resolved.into_iter().map(|r| r.0).collect())),
-                censor,
-                censored,
-            }
-        } else {
-            let betas = runs
-                .into_par_iter()
-                .map(|i| {
-                    let y = null_series(key, stream_seed(seed, i));
-                    critical_penalty(&L2Cost::from_vectors(&y)?, key.min_size)
-                })
-                .collect::<Result<Vec<f64>, StatsError>>()?;
-            NullDistribution {
-                sorted: Arc::new(sorted(betas)),
-                censor: f64::NEG_INFINITY,
-                censored: 0,
-            }
+        let tabulated = self
+            .tabulated
+            .then(|| super::null_table::penalty_null(&self.settings, key))
+            .flatten();
+        let null = match tabulated {
+            Some(null) => null,
+            None => simulate_null(&self.settings, key)?,
         };
         let null = Arc::new(null);
         self.lock().insert(*key, null.clone());
@@ -477,6 +463,64 @@ impl PenaltyCalibrator {
         // A poisoned cache only means another thread panicked mid-insert; the map is still valid.
         self.cache.lock().unwrap_or_else(|e| e.into_inner())
     }
+}
+
+/// Simulates the null distribution of `key` (see [`PenaltyCalibrator`] for the censoring).
+pub(crate) fn simulate_null(
+    settings: &CalibrationSettings,
+    key: &NullKey,
+) -> Result<NullDistribution, StatsError> {
+    let runs = 0..settings.runs as u64;
+    let null = if key.censored {
+        // The series are not kept between the passes (4000 of them would hold about 190 MB
+        // at 1000 samples): the second pass draws each again from its own stream.
+        let firsts: Vec<f64> = runs
+            .into_par_iter()
+            .map(|i| {
+                let y = null_series(key, run_seed(settings, key, i));
+                Ok(best_single_split_gain(
+                    &L2Cost::from_vectors(&y)?,
+                    key.min_size,
+                ))
+            })
+            .collect::<Result<_, StatsError>>()?;
+        let censor = upper_quantile(&sorted(firsts.clone()), CENSOR_RATE);
+        let resolved = firsts
+            .into_par_iter()
+            .enumerate()
+            .map(|(i, first)| {
+                let y = null_series(key, run_seed(settings, key, i as u64));
+                let cost = L2Cost::from_vectors(&y)?;
+                Ok(
+                    match critical_penalty_above(&cost, key.min_size, first.max(censor))? {
+                        Some(beta) => (beta, false),
+                        None if first >= censor => (first, false),
+                        None => (first, true),
+                    },
+                )
+            })
+            .collect::<Result<Vec<(f64, bool)>, StatsError>>()?;
+        let censored = resolved.iter().filter(|r| r.1).count();
+        NullDistribution {
+            sorted: Arc::new(sorted(resolved.into_iter().map(|r| r.0).collect())),
+            censor,
+            censored,
+        }
+    } else {
+        let betas = runs
+            .into_par_iter()
+            .map(|i| {
+                let y = null_series(key, run_seed(settings, key, i));
+                critical_penalty(&L2Cost::from_vectors(&y)?, key.min_size)
+            })
+            .collect::<Result<Vec<f64>, StatsError>>()?;
+        NullDistribution {
+            sorted: Arc::new(sorted(betas)),
+            censor: f64::NEG_INFINITY,
+            censored: 0,
+        }
+    };
+    Ok(null)
 }
 
 fn sorted(mut values: Vec<f64>) -> Vec<f64> {
