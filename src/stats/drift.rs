@@ -10,6 +10,7 @@
 //!    the new segments until they no longer change (found shifts then stop inflating `Γ`);
 //! 4. estimate each segment's mean, each change point's shift, p-value and location interval.
 
+use nalgebra::Matrix6;
 use rayon::prelude::*;
 
 use super::changepoint::{pelt, Segmentation};
@@ -186,6 +187,8 @@ pub fn analyse_drift(
         objective: 0.0,
     };
     let mut rounds = 0;
+    // The last round's inflation and penalty when its search found no change point.
+    let mut quiet_round: Option<(Matrix6<f64>, f64)> = None;
     let (noise, penalty, converged, cost) = loop {
         rounds += 1;
         let windows = noise_windows(&segmentation.segments(), &regular);
@@ -201,7 +204,20 @@ pub fn analyse_drift(
         )?;
         model.inflate(&noise.inflation);
         let cost = model.cost()?;
-        let next = pelt(&cost, penalty.penalty, m)?;
+        // The same cost as a round that found no change point, at a penalty at least as large:
+        // no change point at β means β ≥ β* (`penalty` module), so there is none at any larger
+        // β either, and the search is not run again (a clean series needs one search, not two).
+        let repeats_quiet = quiet_round.take().is_some_and(|(inflation, beta)| {
+            inflation == noise.inflation && penalty.penalty >= beta
+        });
+        let next = if repeats_quiet {
+            segmentation.clone()
+        } else {
+            pelt(&cost, penalty.penalty, m)?
+        };
+        if next.change_points().is_empty() {
+            quiet_round = Some((noise.inflation, penalty.penalty));
+        }
         // The first round only finds the segments the precise lag-1 estimate needs.
         let settled = rounds > 1 && next.breakpoints == segmentation.breakpoints;
         segmentation = next;
