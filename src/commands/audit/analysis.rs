@@ -88,17 +88,17 @@ pub fn analyse(
     }
     series.retain(&screening.keep)?;
     drop(screening);
-    // The drift analysis first: it holds the most per-frame data, so the per-frame test results
-    // are only made once it is done.
-    let drift = run_drift(&series, false_alarm_rate, calibrators)?;
-    let sample_segment = segment_of_samples(drift.as_ref(), series.len());
+    // The per-frame tests first (32 bytes a frame): the drift analysis is then handed the series
+    // and frees its information matrices (176 bytes a frame) before the change-point search.
     let frame_tests: Vec<ChiSquareTest> = series
         .deviations()
         .par_iter()
         .zip(series.information())
         .map(|(deviation, w)| frame_consistency(deviation, w))
         .collect();
-    drop(series);
+    let samples = series.len();
+    let drift = run_drift(series, false_alarm_rate, calibrators)?;
+    let sample_segment = segment_of_samples(drift.as_ref(), samples);
     let windows = if frame_tests.len() >= WINDOW_FRAMES {
         windowed_consistency(&frame_tests, WINDOW_FRAMES)?
     } else {
@@ -153,7 +153,7 @@ fn deviation_series(solved: &mut Solved) -> Result<(Vec<usize>, DeviationSeries)
 }
 
 fn run_drift(
-    series: &DeviationSeries,
+    series: DeviationSeries,
     false_alarm_rate: f64,
     calibrators: &Calibrators,
 ) -> Result<Option<DriftAnalysis>, StatsError> {
