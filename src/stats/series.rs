@@ -101,6 +101,34 @@ impl DeviationSeries {
         Self::build(frames, times_s, deviations, |i| covariances[i].to_matrix())
     }
 
+    /// [`DeviationSeries::from_packed`] from covariances stored as options (e.g. beside frame
+    /// records, filtered in place to the samples'), without copying them; a missing covariance
+    /// is an error.
+    pub fn from_packed_options(
+        frames: Vec<i64>,
+        times_s: Vec<f64>,
+        deviations: Vec<Vector6<f64>>,
+        covariances: &[Option<PackedSym6>],
+    ) -> Result<Self, StatsError> {
+        let n = frames.len();
+        if times_s.len() != n || deviations.len() != n || covariances.len() != n {
+            return Err(StatsError::LengthMismatch {
+                what: "series frames and their times, deviations and covariances",
+                left: n,
+                right: times_s.len().min(deviations.len()).min(covariances.len()),
+            });
+        }
+        if let Some(index) = covariances.iter().position(Option::is_none) {
+            return Err(StatsError::NonFinite {
+                index,
+                what: "covariance (missing)",
+            });
+        }
+        Self::build(frames, times_s, deviations, |i| {
+            covariances[i].map_or(Matrix6::repeat(f64::NAN), |c| c.to_matrix())
+        })
+    }
+
     /// Validates the samples and inverts each covariance `covariance(i)` once (equal lengths
     /// are the callers' to ensure).
     fn build(
@@ -632,6 +660,23 @@ mod tests {
         assert_eq!(full.frames(), packed.frames());
         assert_eq!(full.variances(), packed.variances());
         assert_eq!(full.information(), packed.information());
+        let frames = || samples.iter().map(|s| s.frame).collect();
+        let times = || samples.iter().map(|s| s.time_s).collect();
+        let deviations = || samples.iter().map(|s| s.deviation).collect();
+        let mut options = vec![Some(PackedSym6::from_matrix(&covariance)); 4];
+        let optional =
+            DeviationSeries::from_packed_options(frames(), times(), deviations(), &options)
+                .unwrap();
+        assert_eq!(optional.variances(), packed.variances());
+        assert_eq!(optional.information(), packed.information());
+        assert_eq!(optional.summaries(), packed.summaries());
+        options[2] = None;
+        let missing =
+            DeviationSeries::from_packed_options(frames(), times(), deviations(), &options);
+        assert!(matches!(
+            missing,
+            Err(StatsError::NonFinite { index: 2, .. })
+        ));
     }
 
     /// A positive definite matrix with eigenvalues from 1 to `spread` (a rotation from the QR

@@ -131,24 +131,34 @@ pub fn mount_of(reference: &Mount, deviation: &Vector6<f64>) -> Mount {
 }
 
 /// The deviation series of the records whose probe was solved (and not screened), with the
-/// record index of each sample. Takes the covariances over from `solved`: they are needed only
-/// to form the series' information.
+/// record index of each sample. Takes the covariances over from `solved` (they are needed only
+/// to form the series' information) and keeps the samples' in place, without a copy.
 fn deviation_series(solved: &mut Solved) -> Result<(Vec<usize>, DeviationSeries), StatsError> {
-    let covariances = std::mem::take(&mut solved.deviation_covariances);
-    let mut records = Vec::new();
-    let (mut frames, mut times_s, mut deviations) = (Vec::new(), Vec::new(), Vec::new());
-    let mut packed = Vec::new();
+    let mut covariances = std::mem::take(&mut solved.deviation_covariances);
+    covariances.resize(solved.records.len(), None);
+    let pairs = solved.records.iter().zip(covariances.iter_mut());
+    for (r, covariance) in pairs {
+        if r.deviation.is_none() {
+            *covariance = None;
+        }
+    }
+    let n = covariances.iter().filter(|c| c.is_some()).count();
+    let mut records = Vec::with_capacity(n);
+    let (mut frames, mut times_s, mut deviations) = (
+        Vec::with_capacity(n),
+        Vec::with_capacity(n),
+        Vec::with_capacity(n),
+    );
     for (i, (r, covariance)) in solved.records.iter().zip(&covariances).enumerate() {
-        if let (Some(deviation), Some(covariance)) = (r.deviation, covariance) {
+        if let (Some(deviation), Some(_)) = (r.deviation, covariance) {
             records.push(i);
             frames.push(r.frame as i64);
             times_s.push(r.time_s);
             deviations.push(deviation);
-            packed.push(*covariance);
         }
     }
-    drop(covariances);
-    let series = DeviationSeries::from_packed(frames, times_s, deviations, &packed)?;
+    covariances.retain(Option::is_some);
+    let series = DeviationSeries::from_packed_options(frames, times_s, deviations, &covariances)?;
     Ok((records, series))
 }
 
