@@ -420,7 +420,8 @@ impl<'a> EffectiveModel<'a> {
             .conditions
             .iter()
             .enumerate()
-            .filter(|(_, c)| !(**c <= tol::NOMINAL_FROM_ROOT_CONDITION))
+            // Rank-deficient frames have an infinite condition.
+            .filter(|(_, c)| c.is_nan() || **c > tol::NOMINAL_FROM_ROOT_CONDITION)
             .map(|(t, _)| (t, information[t].clone()))
             .collect();
         Ok(model)
