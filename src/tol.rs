@@ -275,3 +275,11 @@ pub const COVARIANCE_FAST_CONDITION: f64 = 1e10;
 /// keeps every eigenvalue above `INFORMATION_SUM_RANK_REL` (1e-10) of the largest as long as its
 /// condition number, at most this product, stays below 1e10; 1e8 keeps a margin of 100.
 pub const EFFECTIVE_FAST_CONDITION: f64 = 1e8;
+
+/// A frame whose whitened information `Ω_t` has a condition number above this keeps its
+/// information matrix when a long series releases the others (`stats::series`,
+/// `EffectiveModel::detached`). Below it, the square of the stored root `Ω_t^{1/2}` gives back
+/// `Ω_t` to about `cond · ε ≈ 2e-13` relative in its weakest direction (the eigen-decomposition
+/// is backward stable: errors of a few `ε ‖Ω_t‖`), so the other frames' information is formed
+/// from the root; at the 1e-12 level the results are the same.
+pub const NOMINAL_FROM_ROOT_CONDITION: f64 = 1e3;

@@ -6,6 +6,8 @@ use rayon::prelude::*;
 
 use super::distributions::{chi2_interval, chi2_quantile, chi2_sf, chi2_upper_quantile};
 use super::information::{information_sum_spectrum, Information};
+use super::packed::PackedSym6;
+use super::series::InformationSummary;
 use super::{check_positive, check_probability, StatsError};
 
 /// A chi-square statistic with its degrees of freedom and upper-tail p-value.
@@ -179,40 +181,76 @@ pub fn excess_scatter_with_variances(
             right: information.len().min(variances.len()),
         });
     }
+    Ok(scatter(
+        x,
+        variances,
+        |i| information[i].packed(),
+        |i| InformationSummary::of(&information[i]),
+    ))
+}
+
+/// [`excess_scatter_with_variances`] with each frame's information as a packed matrix
+/// `information[i]` and its rank and observed axes `summaries[i]` (e.g. a matrix formed again
+/// from a root, while the rank and axes were recorded from the original).
+pub fn excess_scatter_packed(
+    x: &[Vector6<f64>],
+    information: &[PackedSym6],
+    summaries: &[InformationSummary],
+    variances: &[Vector6<f64>],
+) -> Result<ExcessScatter, StatsError> {
+    let n = x.len();
+    if n == 0 || information.len() != n || summaries.len() != n || variances.len() != n {
+        return Err(StatsError::LengthMismatch {
+            what: "deviations, information matrices, their ranks and covariances",
+            left: n,
+            right: information.len().min(summaries.len()).min(variances.len()),
+        });
+    }
+    Ok(scatter(x, variances, |i| &information[i], |i| summaries[i]))
+}
+
+/// The excess scatter of non-empty samples of equal lengths, frame `i`'s information being
+/// `matrix(i)` with rank and observed axes `summary(i)`.
+fn scatter<'w>(
+    x: &[Vector6<f64>],
+    variances: &[Vector6<f64>],
+    matrix: impl Fn(usize) -> &'w PackedSym6,
+    summary: impl Fn(usize) -> InformationSummary,
+) -> ExcessScatter {
     let (a, b) =
         x.iter()
-            .zip(information)
-            .fold((Matrix6::zeros(), Vector6::zeros()), |(a, b), (xi, wi)| {
-                let w = wi.matrix();
+            .enumerate()
+            .fold((Matrix6::zeros(), Vector6::zeros()), |(a, b), (i, xi)| {
+                let w = matrix(i).to_matrix();
                 (a + w, b + w * xi)
             });
     let spectrum = information_sum_spectrum(&a);
     let mean = spectrum.pseudo_inverse() * b;
     let statistic: f64 = x
         .iter()
-        .zip(information)
-        .map(|(xi, wi)| wi.mahalanobis2(&(xi - mean)))
+        .enumerate()
+        .map(|(i, xi)| matrix(i).quadratic(&(xi - mean)))
         .sum();
-    let dof = information.iter().map(|w| w.rank()).sum::<usize>() - spectrum.rank;
+    let dof = (0..x.len()).map(|i| summary(i).rank()).sum::<usize>() - spectrum.rank;
     let test = ChiSquareTest::new(statistic, dof);
-    Ok(ExcessScatter {
+    let observed = std::array::from_fn(|j| (0..x.len()).all(|i| summary(i).observes(j)));
+    ExcessScatter {
         variance_factor: (dof > 0).then(|| statistic / dof as f64),
-        axis_variance_factor: axis_factors(x, information, variances, &mean),
+        axis_variance_factor: axis_factors(x, observed, variances, &mean),
         test,
-    })
+    }
 }
 
 fn axis_factors(
     x: &[Vector6<f64>],
-    information: &[Information],
+    observed: [bool; 6],
     variances: &[Vector6<f64>],
     mean: &Vector6<f64>,
 ) -> [Option<f64>; 6] {
     let n = x.len();
     std::array::from_fn(|j| {
-        let observed = information.iter().all(|w| w.diagonal(j) > 0.0);
         let predicted: f64 = variances.iter().map(|p| p[j]).sum::<f64>() / n as f64;
-        (observed && n > 1 && predicted > 0.0).then(|| {
+        (observed[j] && n > 1 && predicted > 0.0).then(|| {
             let empirical: f64 = x.iter().map(|xi| (xi[j] - mean[j]).powi(2)).sum::<f64>();
             empirical / (n - 1) as f64 / predicted
         })

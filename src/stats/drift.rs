@@ -14,10 +14,11 @@ use nalgebra::Matrix6;
 use rayon::prelude::*;
 
 use super::changepoint::{pelt, Segmentation};
-use super::consistency::{excess_scatter_with_variances, ExcessScatter};
+use super::consistency::{excess_scatter_packed, excess_scatter_with_variances, ExcessScatter};
 use super::cost::SegmentCost;
 use super::noise::{estimate_effective_noise, EffectiveNoise, NoiseScales};
 use super::online::{session_alarm, OnlineCalibrator, SessionNull};
+use super::packed::PackedSym6;
 use super::penalty::{null_lag1, stream_seed, PenaltyCalibration, PenaltyCalibrator};
 use super::segments::{
     location_interval, shift_between, weighted_mean_by, LocationSettings, SegmentMean, Shift,
@@ -165,12 +166,46 @@ fn noise_windows(segments: &[(usize, usize)], regular: &[bool]) -> Vec<(usize, u
     out
 }
 
-/// Runs the drift analysis (see the module docs).
-pub fn analyse_drift(
-    series: &DeviationSeries,
+/// The series a drift analysis runs on: borrowed, or handed over (then its information matrices
+/// are freed once the effective model has read them, before the change-point search: the
+/// smallest footprint for a long series).
+#[derive(Debug)]
+pub enum DriftSeries<'s> {
+    Borrowed(&'s DeviationSeries),
+    Owned(DeviationSeries),
+}
+
+impl<'s> From<&'s DeviationSeries> for DriftSeries<'s> {
+    fn from(series: &'s DeviationSeries) -> Self {
+        Self::Borrowed(series)
+    }
+}
+
+impl From<DeviationSeries> for DriftSeries<'_> {
+    fn from(series: DeviationSeries) -> Self {
+        Self::Owned(series)
+    }
+}
+
+impl DriftSeries<'_> {
+    fn len(&self) -> usize {
+        match self {
+            Self::Borrowed(series) => series.len(),
+            Self::Owned(series) => series.len(),
+        }
+    }
+}
+
+/// Runs the drift analysis (see the module docs) on a borrowed series or one handed over
+/// ([`DriftSeries`]). The results are the same but for the segments' excess scatter, which a
+/// handed-over series forms from the model's roots where the matrices were freed (equal to
+/// rounding, see [`EffectiveModel::detached`]).
+pub fn analyse_drift<'s>(
+    series: impl Into<DriftSeries<'s>>,
     options: &DriftOptions,
     calibrators: &Calibrators,
 ) -> Result<DriftAnalysis, StatsError> {
+    let series = series.into();
     let m = options.min_segment_samples.max(1);
     if series.len() < 2 * m {
         return Err(StatsError::TooFewSamples {
@@ -179,7 +214,15 @@ pub fn analyse_drift(
             got: series.len(),
         });
     }
-    let mut model = EffectiveModel::new(series)?;
+    let owned;
+    let (series, mut model) = match series {
+        DriftSeries::Borrowed(series) => (series, EffectiveModel::new(series)?),
+        DriftSeries::Owned(mut series) => {
+            let information = series.take_information();
+            owned = series;
+            (&owned, EffectiveModel::detached(&owned, &information)?)
+        }
+    };
     let regular = model.regular();
     let scales = NoiseScales::for_min_size(m);
     let mut segmentation = Segmentation {
@@ -192,7 +235,9 @@ pub fn analyse_drift(
     let (noise, penalty, converged, cost) = loop {
         rounds += 1;
         let windows = noise_windows(&segmentation.segments(), &regular);
-        let noise = estimate_effective_noise(&model.z, model.whitening.dim, &windows, &scales);
+        let z = model.whitened_samples();
+        let noise = estimate_effective_noise(&z, model.whitening.dim, &windows, &scales);
+        drop(z);
         let penalty = calibrators.penalty.calibrate(
             series.len(),
             model.whitening.dim,
@@ -239,15 +284,18 @@ pub fn analyse_drift(
         warnings.push(DriftWarning::RankDeficientFrames { count: deficient });
     }
     let long_run = model.inflation_for(&noise.long_run_inflation);
+    // The search cost's prefix rows are the largest per-frame data: the gains are all the
+    // estimates need of them, so they go before the segments are described.
+    let gains = change_gains(&cost, &segmentation);
+    drop(cost);
     let fit = FinalFit {
         model: &model,
         long_run: &long_run,
-        cost: &cost,
+        gains: &gains,
         segmentation: &segmentation,
         penalty: &penalty,
     };
     let estimates = describe(series, &fit, options)?;
-    drop(cost);
     let online = replay_online(
         series,
         &model,
@@ -304,14 +352,54 @@ fn replay_online(
     }))
 }
 
+/// The likelihood-ratio gain of each change point of `segmentation` under `cost`: what merging
+/// the two segments around it would cost.
+fn change_gains(cost: &EffectiveCost, segmentation: &Segmentation) -> Vec<f64> {
+    let spans = segmentation.segments();
+    spans
+        .windows(2)
+        .map(|pair| {
+            let ((a, b), (_, c)) = (pair[0], pair[1]);
+            cost.cost(a, c) - cost.cost(a, b) - cost.cost(b, c)
+        })
+        .collect()
+}
+
 /// The final round of the analysis: the model under the search inflation, the long-run
-/// inflation of the intervals, the search cost, the segmentation and its penalty.
+/// inflation of the intervals, the gains of the change points under the search cost, the
+/// segmentation and its penalty.
 struct FinalFit<'a> {
     model: &'a EffectiveModel<'a>,
     long_run: &'a Inflation,
-    cost: &'a EffectiveCost,
+    gains: &'a [f64],
     segmentation: &'a Segmentation,
     penalty: &'a PenaltyCalibration,
+}
+
+/// The excess scatter of samples `start..end`, from the series' information while the model has
+/// it, else from the information the model forms again (formed in parallel, one segment at a
+/// time).
+fn segment_scatter(
+    series: &DeviationSeries,
+    model: &EffectiveModel,
+    start: usize,
+    end: usize,
+) -> Result<ExcessScatter, StatsError> {
+    let (x, variances) = (
+        &series.deviations()[start..end],
+        &series.variances()[start..end],
+    );
+    match model.information() {
+        Some(information) => excess_scatter_with_variances(x, &information[start..end], variances),
+        None => {
+            let information: Vec<PackedSym6> = (start..end)
+                .into_par_iter()
+                .map(|t| model.nominal_original(t))
+                .collect();
+            let summaries = &series.summaries()[start..end];
+            excess_scatter_packed(x, &information, summaries, variances)
+        }
+    }
 }
 
 /// Segment estimates and change points of a final segmentation: gains and p-values under the
@@ -330,19 +418,15 @@ fn describe(
             first_frame: series.frames()[start],
             last_frame: series.frames()[end - 1],
             mean: weighted_mean_by(x, start, end, options.level, effective)?,
-            scatter: excess_scatter_with_variances(
-                &x[start..end],
-                &series.information()[start..end],
-                &series.variances()[start..end],
-            )?,
+            scatter: segment_scatter(series, fit.model, start, end)?,
         });
     }
-    let (cost, penalty) = (fit.cost, fit.penalty);
+    let penalty = fit.penalty;
     let mut change_points = Vec::with_capacity(spans.len().saturating_sub(1));
     for (k, pair) in spans.windows(2).enumerate() {
         let ((a, b), (_, c)) = (pair[0], pair[1]);
         let shift = shift_between(&segments[k].mean, &segments[k + 1].mean, options.level)?;
-        let gain = cost.cost(a, c) - cost.cost(a, b) - cost.cost(b, c);
+        let gain = fit.gains[k];
         let step = |i: usize| shift.shift.dot(&(effective(i) * shift.shift));
         let before: Vec<f64> = (a..b).into_par_iter().rev().map(step).collect();
         let after: Vec<f64> = (b..c).into_par_iter().map(step).collect();

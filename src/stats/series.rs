@@ -25,14 +25,49 @@ pub struct DeviationSample {
 }
 
 /// A validated deviation series with each frame's information `W_t = P_t⁺`. Of the covariance
-/// only the diagonal (the per-axis variances) is kept: the information carries the rest.
+/// only the diagonal (the per-axis variances) is kept: the information carries the rest. A long
+/// series may hand its information matrices over ([`DeviationSeries::take_information`]) once
+/// they are no longer needed; each frame's rank and observed axes stay.
 #[derive(Debug, Clone)]
 pub struct DeviationSeries {
     frames: Vec<i64>,
     times_s: Vec<f64>,
     deviations: Vec<Vector6<f64>>,
     variances: Vec<Vector6<f64>>,
+    /// One per frame, or empty once taken.
     information: Vec<Information>,
+    summaries: Vec<InformationSummary>,
+}
+
+/// What the statistics read of a frame's information besides the matrix: its rank and the axes
+/// it observes at all (`W_jj > 0`), in two bytes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct InformationSummary {
+    rank: u8,
+    /// Bit `j` set when `W_jj > 0`.
+    observed: u8,
+}
+
+impl InformationSummary {
+    pub fn of(information: &Information) -> Self {
+        let observed = (0..6)
+            .filter(|&j| information.diagonal(j) > 0.0)
+            .fold(0u8, |bits, j| bits | (1 << j));
+        Self {
+            rank: information.rank() as u8,
+            observed,
+        }
+    }
+
+    /// `rank W`.
+    pub fn rank(&self) -> usize {
+        usize::from(self.rank)
+    }
+
+    /// Whether `W_jj > 0` for axis `j`.
+    pub fn observes(&self, axis: usize) -> bool {
+        self.observed & (1 << axis) != 0
+    }
 }
 
 impl DeviationSeries {
@@ -64,6 +99,34 @@ impl DeviationSeries {
             });
         }
         Self::build(frames, times_s, deviations, |i| covariances[i].to_matrix())
+    }
+
+    /// [`DeviationSeries::from_packed`] from covariances stored as options (e.g. beside frame
+    /// records, filtered in place to the samples'), without copying them; a missing covariance
+    /// is an error.
+    pub fn from_packed_options(
+        frames: Vec<i64>,
+        times_s: Vec<f64>,
+        deviations: Vec<Vector6<f64>>,
+        covariances: &[Option<PackedSym6>],
+    ) -> Result<Self, StatsError> {
+        let n = frames.len();
+        if times_s.len() != n || deviations.len() != n || covariances.len() != n {
+            return Err(StatsError::LengthMismatch {
+                what: "series frames and their times, deviations and covariances",
+                left: n,
+                right: times_s.len().min(deviations.len()).min(covariances.len()),
+            });
+        }
+        if let Some(index) = covariances.iter().position(Option::is_none) {
+            return Err(StatsError::NonFinite {
+                index,
+                what: "covariance (missing)",
+            });
+        }
+        Self::build(frames, times_s, deviations, |i| {
+            covariances[i].map_or(Matrix6::repeat(f64::NAN), |c| c.to_matrix())
+        })
     }
 
     /// Validates the samples and inverts each covariance `covariance(i)` once (equal lengths
@@ -109,12 +172,14 @@ impl DeviationSeries {
             Err(error) => return Err(first_bad_covariance(n).err().unwrap_or(error)),
         };
         let variances = (0..n).map(|i| covariance(i).diagonal()).collect();
+        let summaries = information.iter().map(InformationSummary::of).collect();
         Ok(Self {
             frames,
             times_s,
             deviations,
             variances,
             information,
+            summaries,
         })
     }
 
@@ -137,6 +202,7 @@ impl DeviationSeries {
         filter(&mut self.deviations, keep);
         filter(&mut self.variances, keep);
         filter(&mut self.information, keep);
+        filter(&mut self.summaries, keep);
         Ok(())
     }
 
@@ -165,12 +231,23 @@ impl DeviationSeries {
         &self.variances
     }
 
+    /// Each frame's information; empty once [taken](Self::take_information).
     pub fn information(&self) -> &[Information] {
         &self.information
     }
+
+    /// Each frame's rank and observed axes (kept when the information is taken).
+    pub fn summaries(&self) -> &[InformationSummary] {
+        &self.summaries
+    }
+
+    /// Hands the information matrices over (the series keeps their summaries): a long series
+    /// frees them once the effective model has read them ([`EffectiveModel::detached`]).
+    pub fn take_information(&mut self) -> Vec<Information> {
+        std::mem::take(&mut self.information)
+    }
 }
 
-/// The error of the first sample whose covariance is not a covariance, if any.
 /// The common whitening `z = L̄ (x − c)` with `W̄ = L̄ᵀL̄` the mean information (rows beyond
 /// its rank are zero) and `c` the overall information-weighted mean (for numerical range only).
 #[derive(Debug, Clone, PartialEq)]
@@ -188,8 +265,20 @@ pub struct CommonWhitening {
 impl CommonWhitening {
     /// Builds the whitening of a series; fails when nothing is observable.
     pub fn new(series: &DeviationSeries) -> Result<Self, StatsError> {
-        let n = series.len().max(1) as f64;
-        let (sum, weighted) = series.information.iter().zip(&series.deviations).fold(
+        Self::of_samples(&series.deviations, &series.information)
+    }
+
+    /// The whitening of samples `x` with information `information` (one per sample).
+    fn of_samples(x: &[Vector6<f64>], information: &[Information]) -> Result<Self, StatsError> {
+        if x.len() != information.len() {
+            return Err(StatsError::LengthMismatch {
+                what: "series samples and their information matrices",
+                left: x.len(),
+                right: information.len(),
+            });
+        }
+        let n = x.len().max(1) as f64;
+        let (sum, weighted) = information.iter().zip(x).fold(
             (Matrix6::zeros(), Vector6::zeros()),
             |(a, b), (w, x)| {
                 let w = w.matrix();
@@ -242,12 +331,18 @@ impl CommonWhitening {
 /// `Ω̃_t` is not stored: it is formed on demand from the nominal root `Ω_t^{1/2}` (decomposed once
 /// per frame) as `Ω_t^{1/2} Γ_a⁻¹ Ω_t^{1/2}` (`Γ_a` the active block of `Γ`), the same matrix as
 /// the definition whenever `Ω_t` has the full rank of the series and both are well conditioned
-/// ([`tol::EFFECTIVE_FAST_CONDITION`]); other frames take the definition's eigen path.
+/// ([`tol::EFFECTIVE_FAST_CONDITION`]); other frames take the definition's eigen path. Nor are
+/// the whitened samples `z_t = L̄ (x_t − c)` stored: each is formed from the deviation when read
+/// (the same operations, so the same values).
 #[derive(Debug, Clone)]
 pub struct EffectiveModel<'a> {
     series: &'a DeviationSeries,
+    /// Every frame's information, while the series holds it.
+    information: Option<&'a [Information]>,
+    /// A detached model's copies of the information of the frames whose nominal the root does
+    /// not give back to rounding ([`tol::NOMINAL_FROM_ROOT_CONDITION`]), by frame index.
+    kept: Vec<(usize, Information)>,
     pub whitening: CommonWhitening,
-    pub z: Vec<Vector6<f64>>,
     /// Whether every frame has the mean information (then `Ω̃_t = Γ⁻¹` for all `t`).
     pub common: bool,
     /// `Ω_t^{1/2}` per frame (whitened coordinates).
@@ -304,20 +399,42 @@ impl Inflation {
 }
 
 impl<'a> EffectiveModel<'a> {
-    /// Whitens a series (no inflation yet: `Γ = I`).
+    /// Whitens a series (no inflation yet: `Γ = I`), reading each frame's information from the
+    /// series whenever needed.
     pub fn new(series: &'a DeviationSeries) -> Result<Self, StatsError> {
-        let whitening = CommonWhitening::new(series)?;
-        let dim = whitening.dim;
-        let z: Vec<Vector6<f64>> = series
-            .deviations
-            .par_iter()
-            .map(|x| whitening.whiten(x))
+        let mut model = Self::build(series, &series.information)?;
+        model.information = Some(&series.information);
+        Ok(model)
+    }
+
+    /// [`new`](Self::new) for a series whose information matrices `information` (one per frame)
+    /// were [taken](DeviationSeries::take_information) and are freed after this call: the model
+    /// keeps copies of the few frames whose nominal information its root does not give back to
+    /// rounding, and forms the others' as `Ω_t = (Ω_t^{1/2})²`.
+    pub fn detached(
+        series: &'a DeviationSeries,
+        information: &[Information],
+    ) -> Result<Self, StatsError> {
+        let mut model = Self::build(series, information)?;
+        model.kept = model
+            .conditions
+            .iter()
+            .enumerate()
+            // Rank-deficient frames have an infinite condition.
+            .filter(|(_, c)| c.is_nan() || **c > tol::NOMINAL_FROM_ROOT_CONDITION)
+            .map(|(t, _)| (t, information[t].clone()))
             .collect();
+        Ok(model)
+    }
+
+    /// The whitening, roots and conditions of `series` with information `information`.
+    fn build(series: &'a DeviationSeries, information: &[Information]) -> Result<Self, StatsError> {
+        let whitening = CommonWhitening::of_samples(&series.deviations, information)?;
+        let dim = whitening.dim;
         let identity = active_identity(dim);
         let limit = tol::COMMON_INFORMATION_REL * (dim as f64).sqrt();
         // Unzipped as they are made: no per-frame tuple vector beside the two results.
-        let (roots, tagged): (Vec<PackedSym6>, Vec<(f64, bool)>) = series
-            .information
+        let (roots, tagged): (Vec<PackedSym6>, Vec<(f64, bool)>) = information
             .par_iter()
             .map(|w| {
                 let omega = whitening.information_in_whitened(&w.matrix());
@@ -342,13 +459,34 @@ impl<'a> EffectiveModel<'a> {
         let conditions = tagged.into_iter().map(|t| t.0).collect();
         Ok(Self {
             series,
+            information: None,
+            kept: Vec::new(),
             inflation: Inflation::new(&identity, dim),
             whitening,
-            z,
             common,
             roots,
             conditions,
         })
+    }
+
+    /// Number of frames.
+    pub fn len(&self) -> usize {
+        self.roots.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.roots.is_empty()
+    }
+
+    /// The whitened sample `z_t = L̄ (x_t − c)`.
+    #[inline]
+    pub fn z(&self, t: usize) -> Vector6<f64> {
+        self.whitening.whiten(&self.series.deviations[t])
+    }
+
+    /// Every whitened sample (formed for the caller, e.g. the noise estimate).
+    pub fn whitened_samples(&self) -> Vec<Vector6<f64>> {
+        (0..self.len()).into_par_iter().map(|t| self.z(t)).collect()
     }
 
     /// Applies a noise inflation `Γ` (whitened coordinates).
@@ -383,10 +521,46 @@ impl<'a> EffectiveModel<'a> {
         Spectrum::new(&covariance, tol::INFORMATION_SUM_RANK_REL).pseudo_inverse()
     }
 
-    /// `Ω_t` (nominal, whitened coordinates).
+    /// `Ω_t` (nominal, whitened coordinates): from the frame's information when the model has
+    /// it, else the square of its root (the same to rounding, see [`EffectiveModel::detached`]).
     pub fn nominal(&self, t: usize) -> Matrix6<f64> {
-        let w = self.series.information[t].matrix();
-        self.whitening.information_in_whitened(&w)
+        match self.exact_information(t) {
+            Some(w) => self.whitening.information_in_whitened(&w.matrix()),
+            None => {
+                let root = self.roots[t].to_matrix();
+                root * root
+            }
+        }
+    }
+
+    /// `W_t` (nominal, original coordinates), packed: the frame's information when the model
+    /// has it, else `(Ω_t^{1/2} L̄)ᵀ (Ω_t^{1/2} L̄)` (the same to rounding: `L̄⁺ L̄` projects onto
+    /// the range of the mean information, which holds that of every `W_t`).
+    pub fn nominal_original(&self, t: usize) -> PackedSym6 {
+        match self.exact_information(t) {
+            Some(w) => *w.packed(),
+            None => {
+                let factor = self.roots[t].to_matrix() * self.whitening.to_whitened;
+                PackedSym6::from_matrix(&(factor.transpose() * factor))
+            }
+        }
+    }
+
+    /// Every frame's information, when the model reads it from the series.
+    pub fn information(&self) -> Option<&'a [Information]> {
+        self.information
+    }
+
+    /// Frame `t`'s information, when the model has it.
+    fn exact_information(&self, t: usize) -> Option<&Information> {
+        match self.information {
+            Some(all) => all.get(t),
+            None => self
+                .kept
+                .binary_search_by_key(&t, |(index, _)| *index)
+                .ok()
+                .map(|k| &self.kept[k].1),
+        }
     }
 
     /// Frames whose nominal information has the full rank of the series (others break the
@@ -403,9 +577,9 @@ impl<'a> EffectiveModel<'a> {
             )?))
         } else {
             Ok(EffectiveCost::PerFrame(InformationCost::from_frames(
-                self.z.len(),
+                self.len(),
                 self.whitening.dim,
-                |t| (self.z[t], self.effective(t)),
+                |t| (self.z(t), self.effective(t)),
             )))
         }
     }
@@ -414,12 +588,11 @@ impl<'a> EffectiveModel<'a> {
     pub fn effective_whitened(&self) -> Vec<Vector6<f64>> {
         if self.common {
             let map = Spectrum::new(&self.inflation.pseudo_inverse, 0.0).sqrt();
-            return self.z.iter().map(|z| map * z).collect();
+            return (0..self.len()).map(|t| map * self.z(t)).collect();
         }
-        self.z
-            .par_iter()
-            .enumerate()
-            .map(|(t, z)| Spectrum::new(&self.effective(t), 0.0).sqrt() * z)
+        (0..self.len())
+            .into_par_iter()
+            .map(|t| Spectrum::new(&self.effective(t), 0.0).sqrt() * self.z(t))
             .collect()
     }
 
@@ -488,6 +661,139 @@ mod tests {
         assert_eq!(full.frames(), packed.frames());
         assert_eq!(full.variances(), packed.variances());
         assert_eq!(full.information(), packed.information());
+        let frames = || samples.iter().map(|s| s.frame).collect();
+        let times = || samples.iter().map(|s| s.time_s).collect();
+        let deviations = || samples.iter().map(|s| s.deviation).collect();
+        let mut options = vec![Some(PackedSym6::from_matrix(&covariance)); 4];
+        let optional =
+            DeviationSeries::from_packed_options(frames(), times(), deviations(), &options)
+                .unwrap();
+        assert_eq!(optional.variances(), packed.variances());
+        assert_eq!(optional.information(), packed.information());
+        assert_eq!(optional.summaries(), packed.summaries());
+        options[2] = None;
+        let missing =
+            DeviationSeries::from_packed_options(frames(), times(), deviations(), &options);
+        assert!(matches!(
+            missing,
+            Err(StatsError::NonFinite { index: 2, .. })
+        ));
+    }
+
+    /// A positive definite matrix with eigenvalues from 1 to `spread` (a rotation from the QR
+    /// factor of a fixed matrix).
+    fn spd(seed: usize, spread: f64) -> Matrix6<f64> {
+        let a = Matrix6::from_fn(|i, j| (((seed * 31 + i * 7 + j * 13) % 11) as f64 - 5.0) / 5.0);
+        let q = a.qr().q();
+        let values = Vector6::from_fn(|i, _| spread.powf(i as f64 / 5.0));
+        q * Matrix6::from_diagonal(&values) * q.transpose()
+    }
+
+    /// Forty frames of varying covariance: mostly well conditioned, one badly conditioned
+    /// (kept by a detached model) and one rank-deficient.
+    fn varied_series() -> DeviationSeries {
+        let u = Vector6::new(0.3, -0.2, 0.9, 0.1, 0.0, 0.2).normalize();
+        let projector = Matrix6::identity() - u * u.transpose();
+        let samples: Vec<DeviationSample> = (0..40)
+            .map(|t| {
+                let covariance = match t {
+                    7 => spd(70, 1e7),
+                    12 => projector * spd(12, 20.0) * projector,
+                    _ => spd(t, 1.0 + t as f64),
+                };
+                DeviationSample {
+                    frame: t as i64,
+                    time_s: t as f64 / 30.0,
+                    deviation: Vector6::from_fn(|i, _| ((t * 5 + i * 3) % 7) as f64 * 0.1),
+                    covariance,
+                }
+            })
+            .collect();
+        DeviationSeries::new(&samples).unwrap()
+    }
+
+    fn relative(a: &Matrix6<f64>, b: &Matrix6<f64>) -> f64 {
+        (a - b).norm() / b.norm()
+    }
+
+    /// The whitened samples formed on demand are `L̄ (x_t − c)` (the definition of the common
+    /// whitening, evaluated here by hand from its public parts).
+    #[test]
+    fn whitened_samples_are_formed_from_the_deviations() {
+        let series = varied_series();
+        let model = EffectiveModel::new(&series).unwrap();
+        let w = &model.whitening;
+        let z = model.whitened_samples();
+        assert_eq!(z.len(), series.len());
+        for (t, x) in series.deviations().iter().enumerate() {
+            assert_eq!(z[t], w.to_whitened * (x - w.centre));
+            assert_eq!(model.z(t), z[t]);
+        }
+    }
+
+    /// A detached model (information freed) against one reading the series: the same roots, so
+    /// the same effective information on the direct path bit for bit; the badly conditioned and
+    /// rank-deficient frames keep their information, so their nominal is exact; the others'
+    /// nominal, formed as the root squared, agrees to `cond · 1e-15` relative, as the backward
+    /// stability of the symmetric eigen-decomposition gives (Golub & Van Loan, *Matrix
+    /// Computations*, 4th ed., section 8.1: the computed `V Λ Vᵀ` is within a few `ε ‖Ω‖`).
+    #[test]
+    fn detached_model_agrees_with_the_series_information() {
+        let mut series = varied_series();
+        let exact: Vec<Information> = series.information().to_vec();
+        let attached_model = EffectiveModel::new(&series).unwrap();
+        let (nominal, original): (Vec<_>, Vec<_>) = (0..series.len())
+            .map(|t| {
+                (
+                    attached_model.nominal(t),
+                    attached_model.nominal_original(t),
+                )
+            })
+            .unzip();
+        let effective: Vec<_> = (0..series.len())
+            .map(|t| attached_model.effective(t))
+            .collect();
+        drop(attached_model);
+        let information = series.take_information();
+        assert!(series.information().is_empty());
+        assert_eq!(series.summaries().len(), series.len());
+        let model = EffectiveModel::detached(&series, &information).unwrap();
+        drop(information);
+        assert!(model.information().is_none());
+        let conditions = model.conditions.clone();
+        assert!(conditions[7] > tol::NOMINAL_FROM_ROOT_CONDITION && conditions[12].is_infinite());
+        assert_eq!(
+            model.kept.iter().map(|k| k.0).collect::<Vec<_>>(),
+            vec![7, 12]
+        );
+        for t in 0..series.len() {
+            assert_eq!(model.effective(t), effective[t], "frame {t}");
+            assert_eq!(series.summaries()[t], InformationSummary::of(&exact[t]));
+            if t == 7 || t == 12 {
+                assert_eq!(model.nominal(t), nominal[t]);
+                assert_eq!(model.nominal_original(t), original[t]);
+                continue;
+            }
+            let bound = 1e-15 * conditions[t].max(1.0) * 10.0;
+            let error = relative(&model.nominal(t), &nominal[t]);
+            assert!(error <= bound, "frame {t}: {error:e} > {bound:e}");
+            let formed = model.nominal_original(t).to_matrix();
+            let error = relative(&formed, &exact[t].matrix());
+            assert!(error <= 1e-12, "frame {t}: {error:e}");
+        }
+    }
+
+    /// Rank and observed axes of a rank-deficient information: the hand-built covariance
+    /// diag(1, 2, 0, 4, 5, 6) leaves axis 2 unobserved and rank 5.
+    #[test]
+    fn summary_names_rank_and_observed_axes() {
+        let p = Matrix6::from_diagonal(&Vector6::new(1.0, 2.0, 0.0, 4.0, 5.0, 6.0));
+        let summary = InformationSummary::of(&Information::from_covariance(&p, 0).unwrap());
+        assert_eq!(summary.rank(), 5);
+        assert_eq!(
+            (0..6).map(|j| summary.observes(j)).collect::<Vec<_>>(),
+            vec![true, true, false, true, true, true]
+        );
     }
 
     #[test]

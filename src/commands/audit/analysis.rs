@@ -88,17 +88,17 @@ pub fn analyse(
     }
     series.retain(&screening.keep)?;
     drop(screening);
-    // The drift analysis first: it holds the most per-frame data, so the per-frame test results
-    // are only made once it is done.
-    let drift = run_drift(&series, false_alarm_rate, calibrators)?;
-    let sample_segment = segment_of_samples(drift.as_ref(), series.len());
+    // The per-frame tests first (32 bytes a frame): the drift analysis is then handed the series
+    // and frees its information matrices (176 bytes a frame) before the change-point search.
     let frame_tests: Vec<ChiSquareTest> = series
         .deviations()
         .par_iter()
         .zip(series.information())
         .map(|(deviation, w)| frame_consistency(deviation, w))
         .collect();
-    drop(series);
+    let samples = series.len();
+    let drift = run_drift(series, false_alarm_rate, calibrators)?;
+    let sample_segment = segment_of_samples(drift.as_ref(), samples);
     let windows = if frame_tests.len() >= WINDOW_FRAMES {
         windowed_consistency(&frame_tests, WINDOW_FRAMES)?
     } else {
@@ -131,29 +131,39 @@ pub fn mount_of(reference: &Mount, deviation: &Vector6<f64>) -> Mount {
 }
 
 /// The deviation series of the records whose probe was solved (and not screened), with the
-/// record index of each sample. Takes the covariances over from `solved`: they are needed only
-/// to form the series' information.
+/// record index of each sample. Takes the covariances over from `solved` (they are needed only
+/// to form the series' information) and keeps the samples' in place, without a copy.
 fn deviation_series(solved: &mut Solved) -> Result<(Vec<usize>, DeviationSeries), StatsError> {
-    let covariances = std::mem::take(&mut solved.deviation_covariances);
-    let mut records = Vec::new();
-    let (mut frames, mut times_s, mut deviations) = (Vec::new(), Vec::new(), Vec::new());
-    let mut packed = Vec::new();
+    let mut covariances = std::mem::take(&mut solved.deviation_covariances);
+    covariances.resize(solved.records.len(), None);
+    let pairs = solved.records.iter().zip(covariances.iter_mut());
+    for (r, covariance) in pairs {
+        if r.deviation.is_none() {
+            *covariance = None;
+        }
+    }
+    let n = covariances.iter().filter(|c| c.is_some()).count();
+    let mut records = Vec::with_capacity(n);
+    let (mut frames, mut times_s, mut deviations) = (
+        Vec::with_capacity(n),
+        Vec::with_capacity(n),
+        Vec::with_capacity(n),
+    );
     for (i, (r, covariance)) in solved.records.iter().zip(&covariances).enumerate() {
-        if let (Some(deviation), Some(covariance)) = (r.deviation, covariance) {
+        if let (Some(deviation), Some(_)) = (r.deviation, covariance) {
             records.push(i);
             frames.push(r.frame as i64);
             times_s.push(r.time_s);
             deviations.push(deviation);
-            packed.push(*covariance);
         }
     }
-    drop(covariances);
-    let series = DeviationSeries::from_packed(frames, times_s, deviations, &packed)?;
+    covariances.retain(Option::is_some);
+    let series = DeviationSeries::from_packed_options(frames, times_s, deviations, &covariances)?;
     Ok((records, series))
 }
 
 fn run_drift(
-    series: &DeviationSeries,
+    series: DeviationSeries,
     false_alarm_rate: f64,
     calibrators: &Calibrators,
 ) -> Result<Option<DriftAnalysis>, StatsError> {
