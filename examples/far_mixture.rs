@@ -39,6 +39,23 @@ fn series(seed: u64, n: usize, share: f64, rho: f64, jitter: f64) -> Vec<Deviati
         .collect()
 }
 
+/// How many series got each null class, as `class:count` pairs in increasing class.
+fn class_counts(outcomes: &[common::Outcome]) -> String {
+    let mut counts: Vec<(f64, usize)> = Vec::new();
+    for o in outcomes {
+        match counts.iter_mut().find(|(c, _)| *c == o.null_lag1) {
+            Some(entry) => entry.1 += 1,
+            None => counts.push((o.null_lag1, 1)),
+        }
+    }
+    counts.sort_by(|a, b| a.0.total_cmp(&b.0));
+    counts
+        .iter()
+        .map(|(c, k)| format!("{c}:{k}"))
+        .collect::<Vec<_>>()
+        .join(" ")
+}
+
 fn main() {
     let args: Vec<f64> = std::env::args()
         .skip(1)
@@ -48,13 +65,22 @@ fn main() {
         (args[0] as usize, args[1] as u64, args[2], args[3], args[4]);
     let jitter = args.get(5).copied().unwrap_or(0.0);
     let analysis = common::Analysis::new(alpha);
-    let (alarms, median_lag1) = analysis.count(trials, |i| {
-        series(stream_seed(77, i), n, share, rho, jitter)
-    });
+    let outcomes: Vec<common::Outcome> = (0..trials)
+        .map(|i| analysis.outcome(&series(stream_seed(77, i), n, share, rho, jitter)))
+        .collect();
+    let alarms = outcomes.iter().filter(|o| o.alarm).count();
+    let median = |f: fn(&common::Outcome) -> f64| {
+        common::median(&mut outcomes.iter().map(f).collect::<Vec<_>>())
+    };
+    let classes = class_counts(&outcomes);
     println!(
         "n={n} share={share} rho={rho} jitter={jitter} alpha={alpha}: {alarms} of {trials} \
-         (expected {:.1}); null lag1 median {:.2}",
+         (expected {:.1}); null lag1 median {:.2}; medians: lag1 {:.3}, scale_lag1 {:.3}, \
+         studentiser {:.3}; classes {classes}",
         alpha * trials as f64,
-        median_lag1
+        median(|o| o.null_lag1),
+        median(|o| o.lag1),
+        median(|o| o.scale_lag1),
+        median(|o| o.mean_factor),
     );
 }
