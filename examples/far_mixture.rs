@@ -76,11 +76,12 @@ fn main() {
     println!(
         "n={n} share={share} rho={rho} jitter={jitter} alpha={alpha}: {alarms} of {trials} \
          (expected {:.1}); null lag1 median {:.2}; medians: lag1 {:.3}, scale_lag1 {:.3}, \
-         studentiser {:.3}; classes {classes}",
+         studentiser {:.3}, penalty {:.2}; classes {classes}",
         alpha * trials as f64,
         median(|o| o.null_lag1),
         median(|o| o.lag1),
         median(|o| o.scale_lag1),
         median(|o| o.mean_factor),
+        median(|o| o.penalty),
     );
 }

@@ -21,6 +21,8 @@ pub struct Outcome {
     pub scale_lag1: f64,
     /// Mean studentiser `κ_j` over the active directions.
     pub mean_factor: f64,
+    /// The calibrated penalty.
+    pub penalty: f64,
 }
 
 /// The median of some values (NaN when there are none).
@@ -66,6 +68,7 @@ impl Analysis {
             lag1: noise.lag1,
             scale_lag1: noise.scale_lag1,
             mean_factor: noise.factors.sum() / analysis.dim as f64,
+            penalty: analysis.penalty.penalty,
         }
     }
 

@@ -75,7 +75,7 @@ impl NoiseScales {
         let by_length = (n as f64 * self.max_scale_fraction).floor() as usize;
         let top = by_length
             .min(self.max_scale_multiple * self.min_scale)
-            .max(self.min_scale);
+            .max(2 * self.min_scale);
         let mut scales = Vec::new();
         let mut tau = self.min_scale.max(1);
         while tau <= top && 2 * tau <= n {
