@@ -17,7 +17,7 @@
 //! [`richardson_long_run`]), guarded below by a fraction of the largest `u_jᵀ G(τ) u_j` over the
 //! scales from the minimum segment length up to a fraction of the series
 //! ([`RICHARDSON_FLOOR_FRACTION`]; the largest `G(τ)` alone when the series is too short for
-//! two scales): `Γ = U diag(κ_j) Uᵀ`. Both the raw `G(τ)` and their maximum are biased by an
+//! two scales, i.e. shorter than four minimum segment lengths): `Γ = U diag(κ_j) Uᵀ`. Both the raw `G(τ)` and their maximum are biased by an
 //! amount that depends on the shape of the correlation, which made white-plus-AR data less well
 //! studentised than the AR(1) null; the extrapolation is unbiased to first order for every shape.
 //! It is a studentiser: the penalty is calibrated for exactly this estimator, so it is not
@@ -59,7 +59,7 @@ pub struct NoiseScales {
 
 impl NoiseScales {
     /// The default grid for a minimum segment length: from it up to a sixteenth of the series
-    /// or 32 times itself, whichever is smaller.
+    /// or 32 times itself, whichever is smaller, and at least twice itself.
     pub fn for_min_size(min_size: usize) -> Self {
         Self {
             min_scale: min_size.max(1),
@@ -69,8 +69,17 @@ impl NoiseScales {
     }
 
     /// Scales from `min_scale` upward by factors of 2 up to `max_scale_fraction · n` and
-    /// `max_scale_multiple · min_scale` (at least the smallest scale when the series holds two
-    /// windows of it).
+    /// `max_scale_multiple · min_scale`, but always up to `2 · min_scale` when the series holds
+    /// two windows of it.
+    ///
+    /// The second scale is what the long-run extrapolation needs: with `G(m)` alone, a short
+    /// series (below `32 m` at the default fraction) was studentised by the Allan variance at
+    /// the minimum segment length, which reaches a share of the long-run variance that depends
+    /// on the shape of the correlation (white plus 26.5% AR(0.8): 1.75 of 3.12, AR(0.5): 2.40
+    /// of 3.0). The class of its null, matched to that ratio, came out far too weak (median
+    /// coefficient 0.28 for a true 0.515) and 300-sample series of that mixture raised false
+    /// change points at 6.1% for a rate of 1% (docs/benchmarks.md). The pair `(m, 2m)` is noisy
+    /// on a few hundred samples, but the null is studentised by the same estimator.
     pub fn grid(&self, n: usize) -> Vec<usize> {
         let by_length = (n as f64 * self.max_scale_fraction).floor() as usize;
         let top = by_length
@@ -146,9 +155,11 @@ impl EffectiveNoise {
         }
     }
 
-    /// The AR(1) coefficient of the clean series the penalty is calibrated on: the larger of the
-    /// lag-1 coefficient and the one matching the ratio of long-run to marginal variance (the
-    /// shift-robust versions when `robust`, before any segment is known).
+    /// The point estimate of the AR(1) coefficient of the clean series the penalty is calibrated
+    /// on: the larger of the lag-1 coefficient and the one matching the ratio of long-run to
+    /// marginal variance (the shift-robust versions when `robust`, before any segment is known).
+    /// The class used is at least this, rounded up, and at least an upper confidence bound of
+    /// the long-run coefficient (`PenaltyCalibrator::null_class`).
     pub fn null_lag1(&self, robust: bool) -> f64 {
         if robust {
             self.lag1_robust.max(self.scale_lag1_robust)
