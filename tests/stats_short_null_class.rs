@@ -85,7 +85,10 @@ fn short_mixture_class_bounds_the_true_coefficient() {
         })
         .count();
     // Expected 0.94 · 40 = 37.6, binomial sd 1.5: 32 is almost four sd below.
-    assert!(covered >= 32, "class >= {truth:.3} in {covered} of {TRIALS}");
+    assert!(
+        covered >= 32,
+        "class >= {truth:.3} in {covered} of {TRIALS}"
+    );
 }
 
 /// The bound does not over-correct white noise (true coefficient 0): its class stays at most 0.4

@@ -192,10 +192,13 @@ pub fn analyse_drift(
         let noise = estimate_effective_noise(&model.z, model.whitening.dim, &windows, &scales);
         // Before any segment is known an undetected shift would inflate the residual
         // autocorrelation (and with it the penalty), so the first round uses the robust one.
-        let class =
-            calibrators
-                .penalty
-                .null_class(series.len(), model.whitening.dim, m, &noise, rounds == 1)?;
+        let class = calibrators.penalty.null_class(
+            series.len(),
+            model.whitening.dim,
+            m,
+            &noise,
+            rounds == 1,
+        )?;
         let penalty = calibrators.penalty.calibrate(
             series.len(),
             model.whitening.dim,

@@ -284,8 +284,7 @@ pub fn estimate_effective_noise(
             // Short series: the pooled extrapolation ratio on the precise smallest scale.
             let k = u.dot(&(estimates[0].1 * u)) * ratio;
             factors[j] = k.max(RICHARDSON_FLOOR_FRACTION * factors[j]);
-        } else if let Some((tau, lower, upper)) = richardson_pair(&estimates, scales.min_scale)
-        {
+        } else if let Some((tau, lower, upper)) = richardson_pair(&estimates, scales.min_scale) {
             // The extrapolation alone, not the largest of it and the raw `G(τ)`: a maximum over
             // candidates is biased upward by an amount that depends on how close the raw ones
             // come to the long-run variance, i.e. on the shape of the correlation, so AR(1)

@@ -243,8 +243,10 @@ pub fn critical_penalty_above<C: SegmentCost>(
         if k == 0 {
             return Ok(moved.then_some(beta));
         }
-        let fitted = seg.objective - beta * k as f64;
-        let next = (whole - fitted) / k as f64;
+        // The ratio from the segment costs themselves, not from `objective − β k`: it then
+        // depends on the segmentation alone, so every start that reaches the same maximiser
+        // returns the same number to the last bit.
+        let next = split_gain(cost, whole, &seg.segments()) / k as f64;
         if next <= beta * (1.0 + 1e-12) {
             return Ok(Some(beta));
         }
@@ -258,8 +260,14 @@ pub fn best_single_split_gain<C: SegmentCost>(cost: &C, min_size: usize) -> f64 
     let n = cost.n_samples();
     let whole = cost.cost(0, n);
     (min_size.max(1)..=n.saturating_sub(min_size.max(1)))
-        .map(|t| whole - cost.cost(0, t) - cost.cost(t, n))
+        .map(|t| split_gain(cost, whole, &[(0, t), (t, n)]))
         .fold(0.0, f64::max)
+}
+
+/// `C_0 − Σ C(segment)`: the cost a segmentation saves over the single segment, summed in one
+/// order wherever it is needed (so equal segmentations give equal values).
+fn split_gain<C: SegmentCost>(cost: &C, whole: f64, segments: &[(usize, usize)]) -> f64 {
+    whole - segments.iter().map(|&(a, b)| cost.cost(a, b)).sum::<f64>()
 }
 
 /// SplitMix64 finaliser (Steele, Lea & Flood 2014): a well-mixed stream seed from a base seed
