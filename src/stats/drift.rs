@@ -190,21 +190,14 @@ pub fn analyse_drift(
         rounds += 1;
         let windows = noise_windows(&segmentation.segments(), &regular);
         let noise = estimate_effective_noise(&model.z, model.whitening.dim, &windows, &scales);
-        // Before any segment is known an undetected shift would inflate the residual
-        // autocorrelation (and with it the penalty), so the first round uses the robust one.
-        let class = calibrators.penalty.null_class(
-            series.len(),
-            model.whitening.dim,
-            m,
-            &noise,
-            rounds == 1,
-        )?;
         let penalty = calibrators.penalty.calibrate(
             series.len(),
             model.whitening.dim,
             m,
             options.false_alarm_rate,
-            class,
+            // Before any segment is known an undetected shift would inflate the residual
+            // autocorrelation (and with it the penalty), so the first round uses the robust one.
+            noise.null_lag1(rounds == 1),
         )?;
         model.inflate(&noise.inflation);
         let cost = model.cost()?;

@@ -43,6 +43,14 @@ use super::information::Spectrum;
 /// the calibration (the fraction is common practice for such a guard, not derived).
 pub const RICHARDSON_FLOOR_FRACTION: f64 = 0.5;
 
+/// Series of at least this many minimum segment lengths always get the scale `2m` (and the
+/// long-run extrapolation); shorter ones keep `G(m)` alone. On shorter series a difference of two
+/// `2m`-windows spans a large part of the series and a step inside it inflates the pooled
+/// extrapolation in every direction: 3 mm steps in white-noise sessions of 160 and 200 samples
+/// (`m = 10`) were found in 3 of 20 with the extrapolation against 20 of 20 without it, while at
+/// 240 and 300 samples both found 20 of 20 (docs/benchmarks.md). An empirical bound, not derived.
+pub const EXTENSION_MIN_MULTIPLE: usize = 24;
+
 /// Which scales the inflation is estimated at.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct NoiseScales {
@@ -70,7 +78,7 @@ impl NoiseScales {
 
     /// Scales from `min_scale` upward by factors of 2 up to `max_scale_fraction · n` and
     /// `max_scale_multiple · min_scale`, but always up to `2 · min_scale` when the series holds
-    /// two windows of it.
+    /// [`EXTENSION_MIN_MULTIPLE`] minimum segment lengths.
     ///
     /// The second scale is what the long-run extrapolation needs: with `G(m)` alone, a short
     /// series (below `32 m` at the default fraction) was studentised by the Allan variance at
@@ -85,13 +93,18 @@ impl NoiseScales {
     /// a pooled extrapolation (see `estimate_effective_noise`).
     pub fn is_extended(&self, n: usize) -> bool {
         ((n as f64 * self.max_scale_fraction).floor() as usize) < 2 * self.min_scale
+            && n >= EXTENSION_MIN_MULTIPLE * self.min_scale
     }
 
     pub fn grid(&self, n: usize) -> Vec<usize> {
         let by_length = (n as f64 * self.max_scale_fraction).floor() as usize;
-        let top = by_length
-            .min(self.max_scale_multiple * self.min_scale)
-            .max(2 * self.min_scale);
+        let top = by_length.min(self.max_scale_multiple * self.min_scale).max(
+            if n >= EXTENSION_MIN_MULTIPLE * self.min_scale {
+                2 * self.min_scale
+            } else {
+                self.min_scale
+            },
+        );
         let mut scales = Vec::new();
         let mut tau = self.min_scale.max(1);
         while tau <= top && 2 * tau <= n {
@@ -165,8 +178,7 @@ impl EffectiveNoise {
     /// The point estimate of the AR(1) coefficient of the clean series the penalty is calibrated
     /// on: the larger of the lag-1 coefficient and the one matching the ratio of long-run to
     /// marginal variance (the shift-robust versions when `robust`, before any segment is known).
-    /// The class used is at least this, rounded up, and at least an upper confidence bound of
-    /// the long-run coefficient (`PenaltyCalibrator::null_class`).
+    /// The class used is this rounded up to the calibration grid.
     pub fn null_lag1(&self, robust: bool) -> f64 {
         if robust {
             self.lag1_robust.max(self.scale_lag1_robust)

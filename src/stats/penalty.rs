@@ -12,14 +12,12 @@
 //! The penalty therefore includes the estimation error of the inflation (a studentised
 //! statistic). That error grows with the correlation (fewer effectively independent samples),
 //! so ρ (the null class) is set from the data: the larger of its lag-1 autocorrelation and the
-//! AR(1) coefficient matching its ratio of long-run to marginal variance, rounded up to a grid
-//! ([`NULL_LAG1_GRID`]) so that calibrations can be shared, and at least a 95% upper confidence
-//! bound of the latter ([`PenaltyCalibrator::null_class`]): the long-run ratio is noisy on short
-//! series, and a low estimate comes with a low studentiser. The penalty grows with ρ, so
-//! rounding up errs towards fewer false alarms; on series shorter than 32 minimum segment
-//! lengths, studentised by a pooled extrapolation (`noise` module), it need not (white 38.1
-//! against AR classes 0.7-0.75 34.7 at 300 samples, dimension 6, α = 0.01), and the rule rests on
-//! the false-alarm rates measured there (docs/benchmarks.md).
+//! AR(1) coefficient matching its ratio of long-run to marginal variance
+//! (`EffectiveNoise::null_lag1`), rounded up to a grid ([`NULL_LAG1_GRID`]) so that calibrations
+//! can be shared. The penalty grows with ρ, so rounding up errs towards fewer false alarms; on
+//! short series studentised by the pooled extrapolation (`noise::NoiseScales::is_extended`) it
+//! need not (n = 300, dimension 6, α = 0.01: white class 0.2 38.1 against AR(0.75) 34.7), and
+//! there the rule rests on the false-alarm rates measured (docs/benchmarks.md).
 //!
 //! The simulated quantile is itself uncertain: at α = 0.01 only a handful of runs lie above it,
 //! and with 1000 runs two calibrator seeds gave penalties of 41.5 and 52.9 for the same null
@@ -52,7 +50,7 @@ use rayon::prelude::*;
 use super::changepoint::pelt;
 use super::cost::{L2Cost, SegmentCost};
 use super::distributions::binomial_cdf;
-use super::noise::{estimate_effective_noise, EffectiveNoise, NoiseScales};
+use super::noise::{estimate_effective_noise, NoiseScales};
 use super::{check_probability, StatsError};
 
 /// AR(1) coefficients at which null series are simulated; a data coefficient is rounded up to
@@ -71,18 +69,6 @@ pub fn null_lag1(data_upper: f64) -> (f64, bool) {
         None => (last, true),
     }
 }
-
-/// Confidence `1 − δ` that the null class chosen for a series is at least as correlated as the
-/// data's (see [`PenaltyCalibrator::null_class`]). The same 95% as [`CALIBRATION_CONFIDENCE`]:
-/// the class and the penalty are each bounded at that confidence.
-pub const CLASS_CONFIDENCE: f64 = 0.95;
-
-/// Simulated series per class for the sampling distribution of its long-run coefficient. Only
-/// the effective noise is estimated on them (no search), so they are cheap. The 5% quantile of
-/// 500 values is the 26th smallest; the number of values below the true 5% point is
-/// Binomial(500, 0.05), standard deviation 4.9, so the order statistic used lies between the
-/// true 3.1% and 6.9% points about two times in three.
-pub const CLASS_RUNS: usize = 500;
 
 /// Confidence `γ` that a calibrated threshold's false-alarm rate is at most the rate asked for
 /// (see the module docs).
@@ -342,31 +328,12 @@ struct NullKey {
     censored: bool,
 }
 
-/// Which simulated AR(1) series a class's estimated coefficients come from.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
-struct ClassKey {
-    n: usize,
-    dim: usize,
-    min_size: usize,
-    lag1_index: usize,
-}
-
-/// The lower `1 − CLASS_CONFIDENCE` quantiles of the coefficient matching the long-run ratio
-/// ([`EffectiveNoise::scale_lag1`]) over series simulated from one AR(1) class: the precise
-/// estimate and the shift-robust one.
-#[derive(Debug, Clone, Copy, PartialEq)]
-struct ClassQuantiles {
-    precise: f64,
-    robust: f64,
-}
-
 /// Calibrates penalties by simulation and remembers each simulated null distribution, so that
 /// many series of the same length and noise class (simulations, sensitivity studies) share one.
 #[derive(Debug, Default)]
 pub struct PenaltyCalibrator {
     settings: CalibrationSettings,
     cache: Mutex<HashMap<NullKey, Arc<NullDistribution>>>,
-    classes: Mutex<HashMap<ClassKey, ClassQuantiles>>,
 }
 
 impl PenaltyCalibrator {
@@ -375,103 +342,7 @@ impl PenaltyCalibrator {
         Self {
             settings,
             cache: Mutex::new(HashMap::new()),
-            classes: Mutex::new(HashMap::new()),
         }
-    }
-
-    /// The AR(1) coefficient (a [`NULL_LAG1_GRID`] value) of the null to calibrate a series of
-    /// `n` samples, dimension `dim` and minimum segment length `min_size` on, from its effective
-    /// noise (the shift-robust estimates when `robust`): the larger of the rounded-up point
-    /// estimate ([`EffectiveNoise::null_lag1`]) and a one-sided upper confidence bound, at
-    /// confidence [`CLASS_CONFIDENCE`], of the coefficient matching the long-run ratio
-    /// ([`EffectiveNoise::scale_lag1`]).
-    ///
-    /// The long-run ratio is noisy on short series, and a low estimate comes with a low
-    /// studentiser, so rounding it up alone gave short white + AR series both too weak a
-    /// studentiser and too weak a null. The bound inverts the sampling distribution of the
-    /// estimate (Neyman's construction of a confidence bound): the class is the smallest grid
-    /// coefficient `c` whose simulated AR(1) series give an estimate at most the observed one
-    /// with probability at most `1 − CLASS_CONFIDENCE`. The estimate grows with the coefficient,
-    /// so a true coefficient `ρ` gets a class `>= ρ` (up to the grid) with probability at least
-    /// [`CLASS_CONFIDENCE`]. The distributions are simulated at the calibration's length
-    /// (`min(n, max_simulated_samples)`; [`CLASS_RUNS`] series each, seeded, cached per class),
-    /// lazily up to the class needed. Longer series are bounded with the wider spread of the
-    /// shorter simulation, which errs towards stronger classes.
-    pub fn null_class(
-        &self,
-        n: usize,
-        dim: usize,
-        min_size: usize,
-        noise: &EffectiveNoise,
-        robust: bool,
-    ) -> Result<f64, StatsError> {
-        let (point, _) = null_lag1(noise.null_lag1(robust));
-        let observed = if robust {
-            noise.scale_lag1_robust
-        } else {
-            noise.scale_lag1
-        };
-        let min_size = min_size.max(1);
-        let key = |lag1_index| ClassKey {
-            n: n.min(self.settings.max_simulated_samples.max(2 * min_size)),
-            dim,
-            min_size,
-            lag1_index,
-        };
-        for (index, &class) in NULL_LAG1_GRID.iter().enumerate() {
-            if class >= point {
-                // Only classes at least the point estimate can be chosen.
-                let quantiles = self.class_quantiles(&key(index))?;
-                let low = if robust {
-                    quantiles.robust
-                } else {
-                    quantiles.precise
-                };
-                if low >= observed {
-                    return Ok(class);
-                }
-            }
-        }
-        Ok(NULL_LAG1_GRID[NULL_LAG1_GRID.len() - 1])
-    }
-
-    /// The lower quantiles of the long-run coefficient for `key`, simulated once.
-    fn class_quantiles(&self, key: &ClassKey) -> Result<ClassQuantiles, StatsError> {
-        if let Some(found) = self.lock_classes().get(key) {
-            return Ok(*found);
-        }
-        if !(1..=6).contains(&key.dim) || key.n < 2 * key.min_size {
-            return Err(StatsError::InvalidParameter {
-                name: "null class dimension or length",
-                value: key.dim as f64,
-                expected: "a dimension from 1 to 6 and two minimum-length segments",
-            });
-        }
-        // Streams of their own, apart from those of the penalty's null series.
-        let seed = stream_seed(self.settings.seed ^ CLASS_STREAMS, key.lag1_index as u64);
-        let rho = NULL_LAG1_GRID[key.lag1_index];
-        let scales = NoiseScales::for_min_size(key.min_size);
-        let statistics: Vec<(f64, f64)> = (0..CLASS_RUNS as u64)
-            .into_par_iter()
-            .map(|i| {
-                let mut rng = Pcg64Mcg::seed_from_u64(stream_seed(seed, i));
-                let z = ar1_series(&mut rng, key.n, key.dim, rho);
-                let noise = estimate_effective_noise(&z, key.dim, &[(0, key.n)], &scales);
-                (noise.scale_lag1, noise.scale_lag1_robust)
-            })
-            .collect();
-        let delta = 1.0 - CLASS_CONFIDENCE;
-        let quantiles = ClassQuantiles {
-            precise: lower_quantile(&sorted(statistics.iter().map(|s| s.0).collect()), delta),
-            robust: lower_quantile(&sorted(statistics.iter().map(|s| s.1).collect()), delta),
-        };
-        self.lock_classes().insert(*key, quantiles);
-        Ok(quantiles)
-    }
-
-    fn lock_classes(&self) -> std::sync::MutexGuard<'_, HashMap<ClassKey, ClassQuantiles>> {
-        // As for `lock`: a poisoned map is still valid.
-        self.classes.lock().unwrap_or_else(|e| e.into_inner())
     }
 
     /// The settings in use.
@@ -634,17 +505,6 @@ fn extrapolated_rate(alpha: f64, n: usize, simulated: usize, min_size: usize) ->
     let ratio = (simulated as f64 / m).ln() / (n as f64 / m).ln();
     alpha * ratio.clamp(0.0, 1.0)
 }
-
-/// The value with at most a fraction `rate` of the sorted sample below it: the order statistic
-/// at rank `floor(rate·R) + 1` (1-based).
-fn lower_quantile(sorted: &[f64], rate: f64) -> f64 {
-    let r = sorted.len();
-    let below = (rate * r as f64).floor() as usize;
-    sorted[below.min(r - 1)]
-}
-
-/// Mixed into the calibration seed for the class statistics' streams ("class" in ASCII).
-const CLASS_STREAMS: u64 = 0x0063_6c61_7373;
 
 /// The value exceeded by at most a fraction `rate` of the sorted sample: the order statistic at
 /// rank `ceil((1 − rate)·R)`.
