@@ -67,13 +67,22 @@ pub struct NoiseScales {
 
 impl NoiseScales {
     /// The default grid for a minimum segment length: from it up to a sixteenth of the series
-    /// or 32 times itself, whichever is smaller, and at least twice itself.
+    /// or 32 times itself, whichever is smaller, and at least twice itself on series of
+    /// [`EXTENSION_MIN_MULTIPLE`] minimum lengths or more.
     pub fn for_min_size(min_size: usize) -> Self {
         Self {
             min_scale: min_size.max(1),
             max_scale_fraction: 0.0625,
             max_scale_multiple: 32,
         }
+    }
+
+    /// Whether the grid of an `n`-sample series reaches `2 · min_scale` only by the floor (the
+    /// fraction alone would stop at the smallest scale): such short series are studentised by
+    /// a pooled extrapolation (see `estimate_effective_noise`).
+    pub fn is_extended(&self, n: usize) -> bool {
+        ((n as f64 * self.max_scale_fraction).floor() as usize) < 2 * self.min_scale
+            && n >= EXTENSION_MIN_MULTIPLE * self.min_scale
     }
 
     /// Scales from `min_scale` upward by factors of 2 up to `max_scale_fraction · n` and
@@ -88,14 +97,6 @@ impl NoiseScales {
     /// coefficient 0.28 for a true 0.515) and 300-sample series of that mixture raised false
     /// change points at 6.1% for a rate of 1% (docs/benchmarks.md). The pair `(m, 2m)` is noisy
     /// on a few hundred samples, but the null is studentised by the same estimator.
-    /// Whether the grid of an `n`-sample series reaches `2 · min_scale` only by the floor (the
-    /// fraction alone would stop at the smallest scale): such short series are studentised by
-    /// a pooled extrapolation (see `estimate_effective_noise`).
-    pub fn is_extended(&self, n: usize) -> bool {
-        ((n as f64 * self.max_scale_fraction).floor() as usize) < 2 * self.min_scale
-            && n >= EXTENSION_MIN_MULTIPLE * self.min_scale
-    }
-
     pub fn grid(&self, n: usize) -> Vec<usize> {
         let by_length = (n as f64 * self.max_scale_fraction).floor() as usize;
         let top = by_length.min(self.max_scale_multiple * self.min_scale).max(
