@@ -189,6 +189,13 @@ struct BoundedSearch<'a, C> {
     /// `nodes[j][k]`: `M` of node `k` of size `LEAF_STARTS << j` (infinite until complete, or
     /// when none of its starts is admissible).
     nodes: Vec<Vec<f64>>,
+    /// `own[j][k]`: the cost of node `k`'s own samples, `C(node start, node end)` (set when the
+    /// node completes).
+    own: Vec<Vec<f64>>,
+    /// The nodes covering the admissible starts at the current end, oldest first, and a lower
+    /// bound on each one's `C(node end, end)`.
+    cover: Vec<(usize, usize)>,
+    tail_bounds: Vec<f64>,
     /// Magnitude of the costs, for the rounding slack of the bound.
     scale: f64,
     previous_argmin: usize,
@@ -223,9 +230,10 @@ impl<'a, C: SegmentCost> BoundedSearch<'a, C> {
         while LEAF_STARTS << (levels - 1) < n + 1 {
             levels += 1;
         }
-        let nodes = (0..levels)
+        let nodes: Vec<Vec<f64>> = (0..levels)
             .map(|j| vec![f64::INFINITY; (n + 1) / (LEAF_STARTS << j) + 1])
             .collect();
+        let own = nodes.iter().map(|level| vec![0.0; level.len()]).collect();
         let mut best = vec![f64::INFINITY; n + 1];
         best[0] = 0.0;
         Self {
@@ -234,6 +242,9 @@ impl<'a, C: SegmentCost> BoundedSearch<'a, C> {
             best,
             last: vec![0; n + 1],
             nodes,
+            own,
+            cover: Vec::with_capacity(levels),
+            tail_bounds: Vec::with_capacity(levels),
             scale: cost.cost(0, n).abs(),
             previous_argmin: 0,
             starts: Vec::with_capacity(LEAF_STARTS << (levels - 1)),
@@ -261,6 +272,7 @@ impl<'a, C: SegmentCost> BoundedSearch<'a, C> {
                 break;
             }
             let k = admissible_end / size - 1;
+            self.own[j][k] = self.cost_between(k * size, admissible_end);
             self.nodes[j][k] = if j == 0 {
                 self.minimum_total(k * size..admissible_end, admissible_end)
                     .map_or(f64::INFINITY, |m| m.total)
@@ -362,12 +374,35 @@ impl<'a, C: SegmentCost> BoundedSearch<'a, C> {
         // The maximal complete nodes covering [0, admissible_end), largest first, then the
         // starts after the last of them.
         let mut covered = 0;
+        self.cover.clear();
         for j in (0..self.nodes.len()).rev() {
             let size = LEAF_STARTS << j;
             while covered + size <= admissible_end {
-                self.visit(j, covered / size, end, &mut incumbent, None);
+                self.cover.push((j, covered / size));
                 covered += size;
             }
+        }
+        // A covering node's tail `C(node end, end)` is at least the cost of the covering nodes
+        // after it plus the last one's tail (a split never raises the cost), so a node whose
+        // bound with that cheaper tail already exceeds the incumbent is skipped without
+        // evaluating its own tail; the bound with the exact tail is tested in `visit`.
+        let last_tail = self.cost_between(covered, end);
+        self.tail_bounds.clear();
+        let mut running = last_tail;
+        for &(j, k) in self.cover.iter().rev() {
+            self.tail_bounds.push(running);
+            running += self.own[j][k];
+        }
+        self.tail_bounds.reverse();
+        let last = self.cover.len().saturating_sub(1);
+        for i in 0..self.cover.len() {
+            let (j, k) = self.cover[i];
+            let bound = self.nodes[j][k] + self.tail_bounds[i] + self.penalty;
+            if i < last && bound > incumbent.total + self.slack(bound, incumbent.total) {
+                continue;
+            }
+            let tail = (i == last).then_some(last_tail);
+            self.visit(j, k, end, &mut incumbent, tail);
         }
         self.evaluate(covered..admissible_end, end, &mut incumbent);
         self.best[end] = incumbent.total;
