@@ -7,36 +7,15 @@ use mountdrift::stats::noise::{estimate_effective_noise, NoiseScales};
 use mountdrift::stats::penalty::{stream_seed, CalibrationSettings, PenaltyCalibrator};
 use mountdrift::stats::segments::LocationSettings;
 use mountdrift::stats::series::{DeviationSample, DeviationSeries};
-use nalgebra::{Matrix6, Vector6};
-use rand::SeedableRng;
-use rand_distr::{Distribution, StandardNormal};
-use rand_pcg::Pcg64Mcg;
+use nalgebra::Matrix6;
+
+mod mixture_common;
+use mixture_common::{mixture, mixture_long_run};
 
 /// Share of the variance in the AR(1) part and its coefficient: per keypoint 0.5 px white plus
 /// 0.3 px AR(0.8), `0.09 / 0.34 = 0.265` (an invented detector, like the simulator's presets).
 const SHARE: f64 = 0.265;
 const RHO: f64 = 0.8;
-
-/// Unit-variance mixture `√(1−s) w_t + √s e_t`, `e_t` stationary AR(1).
-fn mixture(seed: u64, n: usize, share: f64, rho: f64) -> Vec<Vector6<f64>> {
-    let mut rng = Pcg64Mcg::seed_from_u64(seed);
-    let mut draw = || Vector6::<f64>::from_fn(|_, _| StandardNormal.sample(&mut rng));
-    let innovation = (1.0 - rho * rho).sqrt();
-    let mut e = draw();
-    (0..n)
-        .map(|_| {
-            e = e * rho + draw() * innovation;
-            draw() * (1.0 - share).sqrt() + e * share.sqrt()
-        })
-        .collect()
-}
-
-/// Long-run over marginal variance of the mixture: `1 − s + s (1+ρ)/(1−ρ)` (the AR(1) spectrum
-/// at frequency zero, Box & Jenkins, Time Series Analysis, ch. 3; the white part adds its own
-/// variance).
-fn mixture_long_run(share: f64, rho: f64) -> f64 {
-    1.0 - share + share * (1.0 + rho) / (1.0 - rho)
-}
 
 /// The mean studentiser of the mixture and of AR(1) noise with the same long-run variance
 /// (AR(0.515): `(1+ρ)/(1−ρ) = 3.12`) are both close to the long-run variance: the estimator's

@@ -27,26 +27,22 @@ fn the_table_was_made_with_the_default_settings_and_covers_every_class() {
     let table = table();
     assert_eq!(table.penalty_settings, CalibrationSettings::default());
     assert_eq!(table.online_settings, OnlineSettings::default());
-    let min_size = DriftOptions::default().min_segment_samples;
     let grid: Vec<f64> = NULL_LAG1_GRID.to_vec();
     let lags: Vec<f64> = table.penalty.iter().map(|c| c.lag1).collect();
     assert_eq!(lags, grid);
     let lags: Vec<f64> = table.online.iter().map(|c| c.lag1).collect();
     assert_eq!(lags, grid);
     for class in &table.penalty {
-        assert_eq!(
-            (class.n, class.dim, class.min_size),
-            (
-                table.penalty_settings.max_simulated_samples,
-                TABULATED_DIM,
-                min_size
-            )
+        let (n, runs) = (
+            table.penalty_settings.max_simulated_samples,
+            table.penalty_settings.runs,
         );
-        assert_eq!(class.sorted.len(), table.penalty_settings.runs);
-        assert!(
-            ascending(&class.sorted),
-            "penalty class {} sorted",
-            class.lag1
+        assert_tabulated(
+            class.lag1,
+            (class.n, class.dim, class.min_size),
+            &class.sorted,
+            n,
+            runs,
         );
         // Censored runs stand in with a value at or below the censoring level.
         let at_or_below = class.sorted.iter().filter(|&&b| b <= class.censor).count();
@@ -58,21 +54,37 @@ fn the_table_was_made_with_the_default_settings_and_covers_every_class() {
         );
     }
     for class in &table.online {
-        assert_eq!(
-            (class.n, class.dim, class.min_size),
-            (
-                table.online_settings.max_simulated_samples,
-                TABULATED_DIM,
-                min_size
-            )
+        let (n, runs) = (
+            table.online_settings.max_simulated_samples,
+            table.online_settings.runs,
         );
-        assert_eq!(class.sorted.len(), table.online_settings.runs);
-        assert!(
-            ascending(&class.sorted),
-            "online class {} sorted",
-            class.lag1
+        assert_tabulated(
+            class.lag1,
+            (class.n, class.dim, class.min_size),
+            &class.sorted,
+            n,
+            runs,
         );
     }
+}
+
+/// A tabulated class has the simulated length, the full rank, the default minimum segment and
+/// one ascending finite value per run.
+fn assert_tabulated(
+    lag1: f64,
+    shape: (usize, usize, usize),
+    sorted: &[f64],
+    simulated_n: usize,
+    runs: usize,
+) {
+    let min_size = DriftOptions::default().min_segment_samples;
+    assert_eq!(
+        shape,
+        (simulated_n, TABULATED_DIM, min_size),
+        "class {lag1}"
+    );
+    assert_eq!(sorted.len(), runs, "class {lag1}");
+    assert!(ascending(sorted), "class {lag1} sorted");
 }
 
 #[test]

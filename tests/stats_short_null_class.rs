@@ -5,9 +5,9 @@
 use mountdrift::stats::noise::{estimate_effective_noise, EffectiveNoise, NoiseScales};
 use mountdrift::stats::penalty::{null_lag1, stream_seed};
 use nalgebra::Vector6;
-use rand::SeedableRng;
-use rand_distr::{Distribution, StandardNormal};
-use rand_pcg::Pcg64Mcg;
+
+mod mixture_common;
+use mixture_common::{mixture, mixture_long_run};
 
 const N: usize = 300;
 const MIN_SIZE: usize = 10;
@@ -19,26 +19,12 @@ const TRIALS: u64 = 40;
 const SHARE: f64 = 0.265;
 const RHO: f64 = 0.8;
 
-/// Unit-variance mixture `√(1−s) w_t + √s e_t`, `e_t` stationary AR(1).
-fn mixture(seed: u64, share: f64, rho: f64) -> Vec<Vector6<f64>> {
-    let mut rng = Pcg64Mcg::seed_from_u64(seed);
-    let mut draw = || Vector6::<f64>::from_fn(|_, _| StandardNormal.sample(&mut rng));
-    let innovation = (1.0 - rho * rho).sqrt();
-    let mut e = draw();
-    (0..N)
-        .map(|_| {
-            e = e * rho + draw() * innovation;
-            draw() * (1.0 - share).sqrt() + e * share.sqrt()
-        })
-        .collect()
-}
-
 /// The AR(1) coefficient with the mixture's long-run over marginal variance: `λ = 1 − s +
 /// s (1+ρ)/(1−ρ)` (the AR(1) spectrum at frequency zero, Box & Jenkins, Time Series Analysis,
 /// ch. 3; the white part adds its own variance), and `ρ* = (λ−1)/(λ+1)` inverts `(1+ρ)/(1−ρ)`.
 /// For the values above `λ = 3.12`, `ρ* = 0.515`.
 fn true_matching_coefficient(share: f64, rho: f64) -> f64 {
-    let lambda = 1.0 - share + share * (1.0 + rho) / (1.0 - rho);
+    let lambda = mixture_long_run(share, rho);
     (lambda - 1.0) / (lambda + 1.0)
 }
 
@@ -59,7 +45,7 @@ fn median(mut values: Vec<f64>) -> f64 {
 fn short_mixture_long_run_coefficient_is_not_biased_low() {
     let truth = true_matching_coefficient(SHARE, RHO);
     let estimates: Vec<f64> = (0..TRIALS)
-        .map(|i| noise_of(&mixture(stream_seed(31, i), SHARE, RHO)).scale_lag1)
+        .map(|i| noise_of(&mixture(stream_seed(31, i), N, SHARE, RHO)).scale_lag1)
         .collect();
     let got = median(estimates);
     assert!(
@@ -75,7 +61,7 @@ fn short_mixture_long_run_coefficient_is_not_biased_low() {
 fn short_mixture_class_is_not_too_weak() {
     let strong = (0..TRIALS)
         .filter(|&i| {
-            let noise = noise_of(&mixture(stream_seed(32, i), SHARE, RHO));
+            let noise = noise_of(&mixture(stream_seed(32, i), N, SHARE, RHO));
             null_lag1(noise.null_lag1(false)).0 >= 0.5
         })
         .count();
@@ -89,7 +75,7 @@ fn short_mixture_class_is_not_too_weak() {
 fn short_white_noise_class_stays_light() {
     let classes: Vec<f64> = (0..TRIALS)
         .map(|i| {
-            let noise = noise_of(&mixture(stream_seed(33, i), 0.0, 0.0));
+            let noise = noise_of(&mixture(stream_seed(33, i), N, 0.0, 0.0));
             null_lag1(noise.null_lag1(false)).0
         })
         .collect();

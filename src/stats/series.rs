@@ -90,15 +90,7 @@ impl DeviationSeries {
         deviations: Vec<Vector6<f64>>,
         covariances: &[PackedSym6],
     ) -> Result<Self, StatsError> {
-        let n = frames.len();
-        if times_s.len() != n || deviations.len() != n || covariances.len() != n {
-            return Err(StatsError::LengthMismatch {
-                what: "series frames and their times, deviations and covariances",
-                left: n,
-                right: times_s.len().min(deviations.len()).min(covariances.len()),
-            });
-        }
-        Self::build(frames, times_s, deviations, |i| covariances[i].to_matrix())
+        Self::from_stored(frames, times_s, deviations, covariances, |c| Some(*c))
     }
 
     /// [`DeviationSeries::from_packed`] from covariances stored as options (e.g. beside frame
@@ -110,6 +102,17 @@ impl DeviationSeries {
         deviations: Vec<Vector6<f64>>,
         covariances: &[Option<PackedSym6>],
     ) -> Result<Self, StatsError> {
+        Self::from_stored(frames, times_s, deviations, covariances, |c| *c)
+    }
+
+    /// The packed constructors: equal lengths, every covariance present (`packed` of each).
+    fn from_stored<T: Sync>(
+        frames: Vec<i64>,
+        times_s: Vec<f64>,
+        deviations: Vec<Vector6<f64>>,
+        covariances: &[T],
+        packed: impl Fn(&T) -> Option<PackedSym6> + Sync,
+    ) -> Result<Self, StatsError> {
         let n = frames.len();
         if times_s.len() != n || deviations.len() != n || covariances.len() != n {
             return Err(StatsError::LengthMismatch {
@@ -118,14 +121,14 @@ impl DeviationSeries {
                 right: times_s.len().min(deviations.len()).min(covariances.len()),
             });
         }
-        if let Some(index) = covariances.iter().position(Option::is_none) {
+        if let Some(index) = covariances.iter().position(|c| packed(c).is_none()) {
             return Err(StatsError::NonFinite {
                 index,
                 what: "covariance (missing)",
             });
         }
         Self::build(frames, times_s, deviations, |i| {
-            covariances[i].map_or(Matrix6::repeat(f64::NAN), |c| c.to_matrix())
+            packed(&covariances[i]).map_or(Matrix6::repeat(f64::NAN), |c| c.to_matrix())
         })
     }
 
