@@ -3,7 +3,7 @@
 
 use crate::session::Policy;
 use crate::stats::consistency::ChiSquareTest;
-use crate::stats::distributions::chi2_sf;
+use crate::stats::distributions::f_sf;
 use crate::stats::information::Spectrum;
 
 use super::analysis::Analysis;
@@ -40,6 +40,16 @@ pub fn session_p_value(analysis: &Analysis) -> f64 {
         return ChiSquareTest::new(total.0, total.1).p_value.unwrap_or(1.0);
     };
     let k = drift.segments.len().max(1) as f64;
+    // The long-run noise factor behind each segment's covariance was estimated from windows of
+    // this many samples (one when no correlation was estimated).
+    let batch = drift
+        .noise
+        .scale_of_max
+        .iter()
+        .copied()
+        .max()
+        .unwrap_or(0)
+        .max(1);
     drift
         .segments
         .iter()
@@ -47,13 +57,26 @@ pub fn session_p_value(analysis: &Analysis) -> f64 {
             let spectrum = Spectrum::new(&s.mean.covariance, crate::tol::RANK_REL_EIG);
             let information = spectrum.pseudo_inverse();
             let d2 = s.mean.mean.dot(&(information * s.mean.mean));
-            if spectrum.rank == 0 {
-                1.0
-            } else {
-                chi2_sf(d2.max(0.0), spectrum.rank as f64).unwrap_or(1.0)
-            }
+            let batches = (s.mean.end - s.mean.start) / batch;
+            studentised_p_value(d2.max(0.0), spectrum.rank, batches)
         })
         .fold(1.0_f64, |p, q| p.min((q * k).min(1.0)))
+}
+
+/// p-value of `d² = μᵀ Σ̂⁺ μ` for a mean whose covariance `Σ̂` rests on a noise level estimated
+/// from `batches` windows, i.e. with `ν = batches − 1` degrees of freedom (batch means: Schmeiser
+/// 1982, Operations Research 30:556-568): Hotelling's T² (Hotelling 1931, Ann. Math. Statist.
+/// 2:360-378), `(ν − p + 1)/(ν p) · d² ~ F(p, ν − p + 1)` for rank `p`, which tends to the
+/// chi-square with `p` dof as `ν` grows. With fewer batches than that needs the mean cannot be
+/// tested (p-value 1).
+pub fn studentised_p_value(d2: f64, rank: usize, batches: usize) -> f64 {
+    let p = rank as f64;
+    let nu = batches.saturating_sub(1) as f64;
+    if rank == 0 || nu < p {
+        return 1.0;
+    }
+    let denominator = nu - p + 1.0;
+    f_sf(denominator / (nu * p) * d2, p, denominator).unwrap_or(1.0)
 }
 
 fn beyond(translation_mm: &[f64; 3], rotation_deg: &[f64; 3], policy: &Policy) -> bool {
@@ -208,4 +231,31 @@ pub fn warnings(outcome: &AuditOutcome, analysis: &Analysis) -> Vec<Warning> {
         ));
     }
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::studentised_p_value;
+
+    /// At the 1% point of Hotelling's T² the p-value is 0.01. One-sample form `T² ~ ((n−1)p/(n−p))
+    /// F(p, n−p)` (NIST/SEMATECH Dataplot, one-sample Hotelling) with `ν = n − 1 = 55` batches'
+    /// degrees of freedom and `p = 6`: `F_0.99(6, 50) = 3.186434` (CHECK_VALUES.md section 2,
+    /// scipy.stats.f.ppf), so the critical `d² = 55·6/50 · 3.186434`.
+    #[test]
+    fn the_hotelling_one_percent_point_has_p_value_one_percent() {
+        let critical = 55.0 * 6.0 / 50.0 * 3.186434;
+        assert!((studentised_p_value(critical, 6, 56) - 0.01).abs() < 1e-6);
+        // The chi-square's own 1% point (16.812 for 6 dof, NIST/SEMATECH e-Handbook 1.3.6.7.4)
+        // is far from significant with so few batches...
+        assert!(studentised_p_value(16.812, 6, 56) > 0.03);
+        // ...and is the limit with many.
+        assert!((studentised_p_value(16.812, 6, 10_000_000) - 0.01).abs() < 1e-4);
+    }
+
+    #[test]
+    fn too_few_batches_or_no_rank_cannot_reject() {
+        assert!(studentised_p_value(1e6, 6, 6) >= 1.0);
+        assert!(studentised_p_value(1e6, 0, 1000) >= 1.0);
+        assert!(studentised_p_value(1e6, 6, 8) < 1e-3);
+    }
 }
