@@ -176,9 +176,11 @@ pub fn pelt<C: SegmentCost>(
     })
 }
 
-/// Starts per leaf of [`pelt`]'s bound tree: enough that the per-node overhead is small, few
-/// enough that opening a leaf costs little.
-pub const LEAF_STARTS: usize = 16;
+/// Starts per leaf of [`pelt`]'s bound tree: one lockstep batch of the four-lane segment costs.
+/// Smaller leaves bound the starts more finely (fewer evaluated where the best start sits, and
+/// at most three after the last complete leaf) for a few more node bounds; on the 100k audit's
+/// search 16, 8, 4 and 2 took 222, 175, 153 and 155 ms (docs/benchmarks.md).
+pub const LEAF_STARTS: usize = 4;
 
 /// State of [`pelt`]: `F`, the argmins, and the node minima `M` of the bound tree.
 struct BoundedSearch<'a, C> {
