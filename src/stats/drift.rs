@@ -110,6 +110,15 @@ pub struct OnlineAlarm {
 
 impl OnlineAlarm {
     /// Alarm frame minus a given (e.g. true) change frame.
+    /// The alarm with its delay after the first of `change_points`.
+    fn after(self, change_points: &[ChangePoint]) -> Self {
+        let delay_frames = self.frame.zip(change_points.first()).map(|(f, c)| f - c.frame);
+        Self {
+            delay_frames,
+            ..self
+        }
+    }
+
     pub fn delay_from(&self, change_frame: i64) -> Option<i64> {
         self.frame.map(|f| f - change_frame)
     }
@@ -232,7 +241,7 @@ pub fn analyse_drift<'s>(
     let mut rounds = 0;
     // The last round's inflation and penalty when its search found no change point.
     let mut quiet_round: Option<(Matrix6<f64>, f64)> = None;
-    let (noise, penalty, converged, cost) = loop {
+    let (noise, penalty, converged, cost, online) = loop {
         rounds += 1;
         let windows = noise_windows(&segmentation.segments(), &regular);
         let z = model.whitened_samples();
@@ -255,10 +264,16 @@ pub fn analyse_drift<'s>(
         let repeats_quiet = quiet_round.take().is_some_and(|(inflation, beta)| {
             inflation == noise.inflation && penalty.penalty >= beta
         });
-        let next = if repeats_quiet {
-            segmentation.clone()
+        // The online replay depends only on this round's model and penalty: it runs on the
+        // other core while the (sequential) search runs, and is kept if this round is the last.
+        let (next, online) = if repeats_quiet {
+            (segmentation.clone(), None)
         } else {
-            pelt(&cost, penalty.penalty, m)?
+            let (next, online) = rayon::join(
+                || pelt(&cost, penalty.penalty, m),
+                || online_alarm(series, &model, &penalty, options, &calibrators.online),
+            );
+            (next?, Some(online))
         };
         if next.change_points().is_empty() {
             quiet_round = Some((noise.inflation, penalty.penalty));
@@ -267,7 +282,7 @@ pub fn analyse_drift<'s>(
         let settled = rounds > 1 && next.breakpoints == segmentation.breakpoints;
         segmentation = next;
         if settled || rounds >= options.max_rounds {
-            break (noise, penalty, settled, cost);
+            break (noise, penalty, settled, cost, online);
         }
     };
     let mut warnings = Vec::new();
@@ -296,14 +311,11 @@ pub fn analyse_drift<'s>(
         penalty: &penalty,
     };
     let estimates = describe(series, &fit, options)?;
-    let online = replay_online(
-        series,
-        &model,
-        &penalty,
-        &estimates.0,
-        options,
-        &calibrators.online,
-    )?;
+    let online = match online {
+        Some(online) => online?,
+        None => online_alarm(series, &model, &penalty, options, &calibrators.online)?,
+    };
+    let online = online.map(|alarm| alarm.after(&estimates.0));
     Ok(DriftAnalysis {
         min_segment_samples: m,
         noise_factor: noise.long_run_factors.max(),
@@ -319,12 +331,12 @@ pub fn analyse_drift<'s>(
     })
 }
 
-/// Replays the online MEWMA over the effective-whitened series `Ω̃_t^{1/2} z_t`.
-fn replay_online(
+/// Replays the online MEWMA over the effective-whitened series `Ω̃_t^{1/2} z_t` (the delay to the
+/// first change point is filled in by [`OnlineAlarm::after`]).
+fn online_alarm(
     series: &DeviationSeries,
     model: &EffectiveModel,
     penalty: &PenaltyCalibration,
-    change_points: &[ChangePoint],
     options: &DriftOptions,
     calibrator: &OnlineCalibrator,
 ) -> Result<Option<OnlineAlarm>, StatsError> {
@@ -341,14 +353,13 @@ fn replay_online(
     let chart = calibrator.calibrate(&null, options.false_alarm_rate)?;
     let y = model.effective_whitened();
     let index = session_alarm(&y, settings.warmup, &chart);
-    let frame = index.map(|i| series.frames()[i]);
     Ok(Some(OnlineAlarm {
         lambda: chart.lambda,
         threshold: chart.h,
         warmup_samples: settings.warmup,
         index,
-        frame,
-        delay_frames: frame.zip(change_points.first()).map(|(f, c)| f - c.frame),
+        frame: index.map(|i| series.frames()[i]),
+        delay_frames: None,
     }))
 }
 
