@@ -109,16 +109,19 @@ pub struct OnlineAlarm {
 }
 
 impl OnlineAlarm {
-    /// Alarm frame minus a given (e.g. true) change frame.
     /// The alarm with its delay after the first of `change_points`.
     fn after(self, change_points: &[ChangePoint]) -> Self {
-        let delay_frames = self.frame.zip(change_points.first()).map(|(f, c)| f - c.frame);
+        let delay_frames = self
+            .frame
+            .zip(change_points.first())
+            .map(|(f, c)| f - c.frame);
         Self {
             delay_frames,
             ..self
         }
     }
 
+    /// Alarm frame minus a given (e.g. true) change frame.
     pub fn delay_from(&self, change_frame: i64) -> Option<i64> {
         self.frame.map(|f| f - change_frame)
     }
