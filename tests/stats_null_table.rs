@@ -7,7 +7,8 @@
 
 use mountdrift::stats::drift::{Calibrators, DriftOptions};
 use mountdrift::stats::null_table::{
-    embedded, online_probe, penalty_probe, NullTable, PROBE_RUNS, TABULATED_DIM,
+    embedded, online_probe, penalty_probe, NullTable, PenaltyClass, TabulatedClass, PROBE_RUNS,
+    TABULATED_DIM,
 };
 use mountdrift::stats::online::{OnlineCalibrator, OnlineSettings, SessionNull};
 use mountdrift::stats::penalty::{
@@ -28,69 +29,52 @@ fn the_table_was_made_with_the_default_settings_and_covers_every_class() {
     assert_eq!(table.penalty_settings, CalibrationSettings::default());
     assert_eq!(table.online_settings, OnlineSettings::default());
     let grid: Vec<f64> = NULL_LAG1_GRID.to_vec();
-    let lags: Vec<f64> = table.penalty.iter().map(|c| c.lag1).collect();
+    let lags: Vec<f64> = table.penalty.iter().map(|c| c.runs.lag1).collect();
     assert_eq!(lags, grid);
     let lags: Vec<f64> = table.online.iter().map(|c| c.lag1).collect();
     assert_eq!(lags, grid);
+    let settings = &table.penalty_settings;
     for class in &table.penalty {
-        let (n, runs) = (
-            table.penalty_settings.max_simulated_samples,
-            table.penalty_settings.runs,
-        );
-        assert_tabulated(
-            class.lag1,
-            (class.n, class.dim, class.min_size),
-            &class.sorted,
-            n,
-            runs,
-        );
+        let runs = &class.runs;
+        assert_tabulated(runs, settings.max_simulated_samples, settings.runs);
         // Censored runs stand in with a value at or below the censoring level.
-        let at_or_below = class.sorted.iter().filter(|&&b| b <= class.censor).count();
-        assert!(class.censored_runs <= at_or_below, "class {}", class.lag1);
+        let at_or_below = runs.sorted.iter().filter(|&&b| b <= class.censor).count();
+        assert!(class.censored_runs <= at_or_below, "class {}", runs.lag1);
         assert!(
             class.censored_runs > 0,
             "class {}: censoring used",
-            class.lag1
+            runs.lag1
         );
     }
+    let settings = &table.online_settings;
     for class in &table.online {
-        let (n, runs) = (
-            table.online_settings.max_simulated_samples,
-            table.online_settings.runs,
-        );
-        assert_tabulated(
-            class.lag1,
-            (class.n, class.dim, class.min_size),
-            &class.sorted,
-            n,
-            runs,
-        );
+        assert_tabulated(class, settings.max_simulated_samples, settings.runs);
     }
 }
 
 /// A tabulated class has the simulated length, the full rank, the default minimum segment and
 /// one ascending finite value per run.
-fn assert_tabulated(
-    lag1: f64,
-    shape: (usize, usize, usize),
-    sorted: &[f64],
-    simulated_n: usize,
-    runs: usize,
-) {
+fn assert_tabulated(class: &TabulatedClass, simulated_n: usize, runs: usize) {
     let min_size = DriftOptions::default().min_segment_samples;
+    let lag1 = class.lag1;
     assert_eq!(
-        shape,
+        (class.n, class.dim, class.min_size),
         (simulated_n, TABULATED_DIM, min_size),
         "class {lag1}"
     );
-    assert_eq!(sorted.len(), runs, "class {lag1}");
-    assert!(ascending(sorted), "class {lag1} sorted");
+    assert_eq!(class.sorted.len(), runs, "class {lag1}");
+    assert!(ascending(&class.sorted), "class {lag1} sorted");
 }
 
 #[test]
 fn stored_runs_are_reproduced_by_simulating_them_again() {
     let table = table();
-    for class in &table.penalty {
+    for PenaltyClass {
+        runs: class,
+        censor,
+        ..
+    } in &table.penalty
+    {
         assert_eq!(class.probes.len(), PROBE_RUNS);
         for (run, &stored) in class.probes.iter().enumerate() {
             let fresh = penalty_probe(&table.penalty_settings, class, run as u64).unwrap();
@@ -101,7 +85,7 @@ fn stored_runs_are_reproduced_by_simulating_them_again() {
                 class.lag1
             );
             // A run above the censoring level enters the distribution with its exact value.
-            if stored > class.censor {
+            if stored > *censor {
                 assert!(
                     class.sorted.contains(&stored),
                     "class {} run {run}",
@@ -142,7 +126,7 @@ fn default_calibrators_serve_long_series_from_the_table_and_others_by_simulation
         .unwrap();
     assert_eq!(
         long.null_critical.as_slice(),
-        table.penalty[0].sorted.as_slice()
+        table.penalty[0].runs.sorted.as_slice()
     );
     assert!(long.penalty > table.penalty[0].censor);
     // A short series of a lower dimension is not tabulated: simulated with light settings.

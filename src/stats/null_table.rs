@@ -47,36 +47,39 @@ pub struct NullTable {
     pub penalty_settings: CalibrationSettings,
     pub online_settings: OnlineSettings,
     pub penalty: Vec<PenaltyClass>,
-    pub online: Vec<OnlineClass>,
+    pub online: Vec<TabulatedClass>,
+}
+
+/// One tabulated null: what it was simulated for, the values of its first runs computed alone
+/// and every run's value, ascending. For the online threshold the values are the simulated
+/// sessions' largest MEWMA statistics.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct TabulatedClass {
+    pub n: usize,
+    pub dim: usize,
+    pub min_size: usize,
+    pub lag1: f64,
+    /// Runs `0..PROBE_RUNS` (for a penalty null, their uncensored `β*`).
+    pub probes: Vec<f64>,
+    pub sorted: Vec<f64>,
+}
+
+impl TabulatedClass {
+    /// Whether the class was simulated for this length, dimension, minimum segment and AR(1)
+    /// coefficient.
+    fn is(&self, n: usize, dim: usize, min_size: usize, lag1: f64) -> bool {
+        (self.n, self.dim, self.min_size) == (n, dim, min_size)
+            && self.lag1.to_bits() == lag1.to_bits()
+    }
 }
 
 /// One penalty null: every run's critical penalty `β*`, censored below `censor` (see
 /// `PenaltyCalibrator`).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct PenaltyClass {
-    pub n: usize,
-    pub dim: usize,
-    pub min_size: usize,
-    pub lag1: f64,
+    pub runs: TabulatedClass,
     pub censor: f64,
     pub censored_runs: usize,
-    /// Uncensored `β*` of runs `0..PROBE_RUNS`.
-    pub probes: Vec<f64>,
-    /// All runs' values, ascending.
-    pub sorted: Vec<f64>,
-}
-
-/// One online-threshold null: every simulated session's largest MEWMA statistic.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct OnlineClass {
-    pub n: usize,
-    pub dim: usize,
-    pub min_size: usize,
-    pub lag1: f64,
-    /// Maxima of runs `0..PROBE_RUNS`.
-    pub probes: Vec<f64>,
-    /// All runs' maxima, ascending.
-    pub sorted: Vec<f64>,
 }
 
 /// The table compiled into the program (`None` if it does not parse, which a test rules out).
@@ -97,12 +100,9 @@ pub(crate) fn penalty_null(
         return None;
     }
     let lag1 = NULL_LAG1_GRID[key.lag1_index];
-    let class = table.penalty.iter().find(|c| {
-        (c.n, c.dim, c.min_size) == (key.n, key.dim, key.min_size)
-            && c.lag1.to_bits() == lag1.to_bits()
-    })?;
+    let class = (table.penalty.iter()).find(|c| c.runs.is(key.n, key.dim, key.min_size, lag1))?;
     Some(NullDistribution {
-        sorted: Arc::new(class.sorted.clone()),
+        sorted: Arc::new(class.runs.sorted.clone()),
         censor: class.censor,
         censored: class.censored_runs,
     })
@@ -114,10 +114,7 @@ pub(crate) fn online_maxima(settings: &OnlineSettings, null: &SessionNull) -> Op
     table
         .online
         .iter()
-        .find(|c| {
-            (c.n, c.dim, c.min_size) == (null.n, null.dim, null.min_size)
-                && c.lag1.to_bits() == null.lag1.to_bits()
-        })
+        .find(|c| c.is(null.n, null.dim, null.min_size, null.lag1))
         .map(|c| c.sorted.clone())
 }
 
@@ -142,13 +139,9 @@ fn online_null(settings: &OnlineSettings, lag1: f64) -> SessionNull {
     }
 }
 
-/// `β*` of run `run` of a penalty class computed alone (uncensored).
-pub fn penalty_probe(
-    settings: &CalibrationSettings,
-    class: &PenaltyClass,
-    run: u64,
-) -> Result<f64, StatsError> {
-    let index = NULL_LAG1_GRID
+/// The penalty key of a tabulated class.
+fn key_of(class: &TabulatedClass) -> Result<NullKey, StatsError> {
+    let lag1_index = NULL_LAG1_GRID
         .iter()
         .position(|&g| g.to_bits() == class.lag1.to_bits())
         .ok_or(StatsError::InvalidParameter {
@@ -156,19 +149,38 @@ pub fn penalty_probe(
             value: class.lag1,
             expected: "a coefficient of the null grid",
         })?;
-    let key = NullKey {
+    Ok(NullKey {
         n: class.n,
         dim: class.dim,
         min_size: class.min_size,
-        lag1_index: index,
+        lag1_index,
         censored: true,
-    };
+    })
+}
+
+/// The clean series of run `run` of a penalty class, as its calibration simulates it.
+fn penalty_run(
+    settings: &CalibrationSettings,
+    class: &TabulatedClass,
+    run: u64,
+) -> Result<(NullKey, L2Cost), StatsError> {
+    let key = key_of(class)?;
     let y = null_series(&key, run_seed(settings, &key, run));
-    critical_penalty(&L2Cost::from_vectors(&y)?, key.min_size)
+    Ok((key, L2Cost::from_vectors(&y)?))
+}
+
+/// `β*` of run `run` of a penalty class computed alone (uncensored).
+pub fn penalty_probe(
+    settings: &CalibrationSettings,
+    class: &TabulatedClass,
+    run: u64,
+) -> Result<f64, StatsError> {
+    let (key, cost) = penalty_run(settings, class, run)?;
+    critical_penalty(&cost, key.min_size)
 }
 
 /// The session maximum of run `run` of an online class computed alone.
-pub fn online_probe(settings: &OnlineSettings, class: &OnlineClass, run: u64) -> f64 {
+pub fn online_probe(settings: &OnlineSettings, class: &TabulatedClass, run: u64) -> f64 {
     let null = SessionNull {
         n: class.n,
         dim: class.dim,
@@ -193,22 +205,24 @@ pub fn simulate_table(progress: &dyn Fn(&str)) -> Result<NullTable, StatsError> 
     for (index, &lag1) in NULL_LAG1_GRID.iter().enumerate() {
         let key = penalty_key(&penalty_settings, index);
         let null = simulate_null(&penalty_settings, &key)?;
-        let mut class = PenaltyClass {
+        let mut runs = TabulatedClass {
             n: key.n,
             dim: key.dim,
             min_size: key.min_size,
             lag1,
-            censor: null.censor,
-            censored_runs: null.censored,
             probes: Vec::new(),
             sorted: null.sorted.to_vec(),
         };
-        class.probes = (0..PROBE_RUNS as u64)
-            .map(|run| penalty_probe(&penalty_settings, &class, run))
+        runs.probes = (0..PROBE_RUNS as u64)
+            .map(|run| penalty_probe(&penalty_settings, &runs, run))
             .collect::<Result<_, _>>()?;
-        table.penalty.push(class);
+        table.penalty.push(PenaltyClass {
+            runs,
+            censor: null.censor,
+            censored_runs: null.censored,
+        });
         let null = online_null(&online_settings, lag1);
-        let mut class = OnlineClass {
+        let mut class = TabulatedClass {
             n: null.n,
             dim: null.dim,
             min_size: null.min_size,
@@ -233,23 +247,12 @@ mod tests {
     /// Whether PELT at penalty `beta` splits run `run` of `class`.
     fn splits_at(
         settings: &CalibrationSettings,
-        class: &PenaltyClass,
+        class: &TabulatedClass,
         run: u64,
         beta: f64,
     ) -> bool {
-        let key = NullKey {
-            n: class.n,
-            dim: class.dim,
-            min_size: class.min_size,
-            lag1_index: NULL_LAG1_GRID
-                .iter()
-                .position(|&g| g.to_bits() == class.lag1.to_bits())
-                .unwrap_or(0),
-            censored: true,
-        };
-        let y = null_series(&key, run_seed(settings, &key, run));
-        L2Cost::from_vectors(&y)
-            .and_then(|cost| pelt(&cost, beta, key.min_size))
+        penalty_run(settings, class, run)
+            .and_then(|(key, cost)| pelt(&cost, beta, key.min_size))
             .map(|s| !s.change_points().is_empty())
             .unwrap_or(false)
     }
@@ -260,7 +263,7 @@ mod tests {
     fn a_probe_is_the_critical_penalty_of_its_run() {
         let table = embedded().expect("the embedded null table parses");
         let settings = table.penalty_settings;
-        let class = &table.penalty[0];
+        let class = &table.penalty[0].runs;
         let beta = class.probes[0];
         assert!(splits_at(&settings, class, 0, beta * (1.0 - 1e-6)));
         assert!(!splits_at(&settings, class, 0, beta * (1.0 + 1e-6)));
