@@ -90,8 +90,28 @@ pub fn mount_deviation_packed(
     reference: &Mount,
 ) -> (Mount, Vector6<f64>, PackedSym6) {
     let (observed, value, jac) = deviation_and_jacobian(probe, reference);
-    let covariance = jac * probe.covariance * jac.transpose();
-    (observed, value, PackedSym6::from_matrix(&covariance))
+    (
+        observed,
+        value,
+        deviation_covariance_packed(&jac, &probe.covariance),
+    )
+}
+
+/// The observed mount of a probe solution and its deviation from `reference` in report units,
+/// without uncertainty (for a caller that takes the covariance from elsewhere).
+pub fn observed_deviation(probe: &PoseEstimate, reference: &Mount) -> (Mount, Vector6<f64>) {
+    let observed = observed_mount(&probe.pose);
+    let deviation = MountDeviation::between(reference, &observed);
+    (observed, deviation.to_report_vector())
+}
+
+/// The covariance of a deviation in report units from a pose covariance in the tangent space of
+/// `PoseEstimate`, through the deviation Jacobian `jac` ([`deviation_jacobian`]), packed.
+pub fn deviation_covariance_packed(
+    jac: &Matrix6<f64>,
+    pose_covariance: &Matrix6<f64>,
+) -> PackedSym6 {
+    PackedSym6::from_matrix(&(jac * pose_covariance * jac.transpose()))
 }
 
 /// The observed mount, its deviation from `reference` (report units) and the Jacobian of that

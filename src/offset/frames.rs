@@ -5,17 +5,22 @@
 //! previous frame's. Block boundaries depend only on frame order, so results do not depend on
 //! thread scheduling.
 
-use nalgebra::{Isometry3, Vector3, Vector6};
+use nalgebra::{Isometry3, Matrix6, Vector3, Vector6};
 use rayon::prelude::*;
 
 use crate::camera::Camera;
 use crate::geometry::Mount;
 use crate::model::KeypointModel;
-use crate::pnp::{solve_pose, PnpOptions, PoseEstimate, PoseStatus, RejectionReason};
-use crate::session::FrameDetections;
+use crate::pnp::{
+    solve_pose, PnpOptions, PointInformation, PoseEstimate, PoseStatus, RejectionReason,
+};
+use crate::session::{FrameDetections, Observation};
 use crate::stats::packed::PackedSym6;
 
-use super::{mount_deviation_packed, point_in_camera, vector_with_mount};
+use super::{
+    deviation_covariance_packed, deviation_jacobian, mount_deviation_packed, observed_deviation,
+    point_in_camera, vector_with_mount,
+};
 
 /// Frames per warm-start block: long enough that cold starts are rare, short enough to keep
 /// both cores busy on a few thousand frames.
@@ -105,13 +110,112 @@ pub struct FrameSolver<'a> {
     pub drogue: &'a KeypointModel,
     pub reference: Mount,
     pub options: PnpOptions,
+    /// The probe points' information at the reference mount and the deviation Jacobian there:
+    /// what a frame's deviation covariance is computed from.
+    at_reference: ReferenceGeometry,
 }
 
-/// Warm starts carried from one frame to the next inside a block.
+/// The probe seen from the reference mount.
+#[derive(Debug, Clone)]
+struct ReferenceGeometry {
+    points: PointInformation,
+    jacobian: Matrix6<f64>,
+}
+
+/// Deviation covariances already computed in a block, by the set of points used and their
+/// common sigma: most frames of a session see the same points with the same sigma.
+#[derive(Debug, Clone, Default)]
+struct CovarianceCache {
+    entries: Vec<(UsedPoints, PackedSym6)>,
+    next: usize,
+}
+
+/// A set of model points (indices below 128) used with one common sigma.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct UsedPoints {
+    mask: u128,
+    sigma_bits: u64,
+}
+
+/// Sets remembered per block: the full set and the few dropout patterns around it.
+const CACHED_SETS: usize = 4;
+
+impl UsedPoints {
+    /// The key of the observations flagged in `used`, or `None` when it has none (a point index
+    /// beyond 127, or sigmas that differ).
+    fn of(obs: &[Observation], used: &[bool]) -> Option<Self> {
+        let mut mask = 0u128;
+        let mut sigma = None;
+        for (o, _) in obs.iter().zip(used).filter(|(_, &u)| u) {
+            let bit = 1u128.checked_shl(u32::try_from(o.point).ok()?)?;
+            mask |= bit;
+            match sigma {
+                None => sigma = Some(o.sigma_px.to_bits()),
+                Some(b) if b == o.sigma_px.to_bits() => {}
+                Some(_) => return None,
+            }
+        }
+        Some(Self {
+            mask,
+            sigma_bits: sigma?,
+        })
+    }
+}
+
+impl CovarianceCache {
+    fn get_or_insert(
+        &mut self,
+        key: Option<UsedPoints>,
+        compute: impl FnOnce() -> Option<PackedSym6>,
+    ) -> Option<PackedSym6> {
+        let Some(key) = key else {
+            return compute();
+        };
+        if let Some((_, c)) = self.entries.iter().find(|(k, _)| *k == key) {
+            return Some(*c);
+        }
+        let c = compute()?;
+        if self.entries.len() < CACHED_SETS {
+            self.entries.push((key, c));
+        } else {
+            self.entries[self.next] = (key, c);
+            self.next = (self.next + 1) % CACHED_SETS;
+        }
+        Some(c)
+    }
+}
+
+/// Warm starts carried from one frame to the next inside a block, and the block's covariances.
 #[derive(Debug, Clone, Default)]
 struct WarmStarts {
     probe: Option<Isometry3<f64>>,
     drogue: Option<Isometry3<f64>>,
+    covariances: CovarianceCache,
+}
+
+impl<'a> FrameSolver<'a> {
+    /// A solver measuring deviations from `reference`.
+    pub fn new(
+        camera: &'a Camera,
+        probe: &'a KeypointModel,
+        drogue: &'a KeypointModel,
+        reference: Mount,
+        options: PnpOptions,
+    ) -> Self {
+        let pose = reference.body_from_camera().inverse();
+        let at_reference = ReferenceGeometry {
+            points: PointInformation::at(camera, probe, &pose),
+            jacobian: deviation_jacobian(&pose, &reference),
+        };
+        Self {
+            camera,
+            probe,
+            drogue,
+            reference,
+            options,
+            at_reference,
+        }
+    }
 }
 
 impl FrameSolver<'_> {
@@ -148,7 +252,7 @@ impl FrameSolver<'_> {
         warm.drogue = drogue.estimate().map(|e| e.pose);
         let deviation = probe
             .estimate()
-            .map(|e| mount_deviation_packed(e, &self.reference));
+            .map(|e| self.deviation(e, &det.probe, &mut warm.covariances));
         let drogue_camera_m = drogue
             .estimate()
             .map(|e| point_in_camera(e, &self.drogue.reference_point()));
@@ -168,6 +272,36 @@ impl FrameSolver<'_> {
             dual_vector_m,
         };
         (record, deviation.map(|d| d.2))
+    }
+}
+
+impl FrameSolver<'_> {
+    /// The observed mount and its deviation from the reference with covariance. The covariance
+    /// is the one of the points this solution used, evaluated at the reference mount rather than
+    /// at the solution (independent of this frame's noise, so that information-weighted means
+    /// over frames stay unbiased: docs/method.md); at the solution only when a used point is not
+    /// in front of the camera at the reference.
+    fn deviation(
+        &self,
+        estimate: &PoseEstimate,
+        obs: &[Observation],
+        cache: &mut CovarianceCache,
+    ) -> (Mount, Vector6<f64>, PackedSym6) {
+        let geometry = &self.at_reference;
+        let covariance = cache.get_or_insert(UsedPoints::of(obs, &estimate.inliers), || {
+            let summary = geometry.points.summary(obs, &estimate.inliers)?;
+            Some(deviation_covariance_packed(
+                &geometry.jacobian,
+                &summary.covariance,
+            ))
+        });
+        match covariance {
+            Some(c) => {
+                let (mount, value) = observed_deviation(estimate, &self.reference);
+                (mount, value, c)
+            }
+            None => mount_deviation_packed(estimate, &self.reference),
+        }
     }
 }
 

@@ -38,7 +38,7 @@ use pose::Pose;
 use prepare::PointGeometry;
 use refine::{Gate, Solution};
 
-pub use uncertainty::{fisher_information, CovarianceSummary};
+pub use uncertainty::{fisher_information, CovarianceSummary, PointInformation};
 
 /// A solved pose with its uncertainty.
 ///

@@ -3,12 +3,12 @@
 //! shrinks: Hartley and Zisserman, Multiple View Geometry, 2nd ed., ch. 5), conditioning, and a
 //! quick chi-square quantile for fit checks.
 
-use nalgebra::{Isometry3, Matrix6, Vector6};
+use nalgebra::{Isometry3, Matrix6, Vector3, Vector6};
 
 use super::linalg::{symmetric_eigen, tridiagonal_eigenvalues, Cholesky};
 
 use super::pose::Pose;
-use super::prepare::Correspondence;
+use super::prepare::{Correspondence, PointGeometry};
 use super::refine::{accumulate, Gate, Loss, Problem};
 use crate::camera::Camera;
 use crate::model::KeypointModel;
@@ -50,6 +50,61 @@ pub fn fisher_information(
     };
     let active = vec![true; pts.len()];
     accumulate(&problem, &active, Loss::Squared, &Pose::from_isometry(pose)).map(|n| n.h)
+}
+
+/// The Fisher information of each model point at one fixed pose, for unit pixel sigma: the
+/// information of any set of those points seen with sigmas `σᵢ` at that pose is `Σ Aᵢ / σᵢ²`.
+///
+/// Weighting a frame by the information at its own estimate couples the weight to the frame's
+/// noise: the weighted mean of many frames then carries a bias of second order in the noise
+/// (the information rises where the estimate errs towards the camera). The information at a pose
+/// fixed beforehand depends only on which points were seen and their sigmas, never on where the
+/// noise put them.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PointInformation {
+    /// `Aᵢ`, or `None` where point `i` is not in front of the camera at the pose.
+    per_point: Vec<Option<Matrix6<f64>>>,
+    points_m: Vec<Vector3<f64>>,
+}
+
+impl PointInformation {
+    /// Each point of `model` at `pose` (`T_CO`).
+    pub fn at(camera: &Camera, model: &KeypointModel, pose: &Isometry3<f64>) -> Self {
+        let per_point = (0..model.len())
+            .map(|point| {
+                let unit = Observation {
+                    point,
+                    px: nalgebra::Vector2::zeros(),
+                    sigma_px: 1.0,
+                };
+                fisher_information(camera, model, &[unit], pose)
+            })
+            .collect();
+        Self {
+            per_point,
+            points_m: model.points().iter().map(|p| p.xyz_m).collect(),
+        }
+    }
+
+    /// The information of the observations flagged in `used` (parallel to `obs`) at the fixed
+    /// pose, summarised as `solve_pose` summarises its own (rotations scaled by the RMS radius of
+    /// all observed points). `None` when a used point names no model point, has no information at
+    /// the pose, or has a sigma that is not positive and finite.
+    pub fn summary(&self, obs: &[Observation], used: &[bool]) -> Option<CovarianceSummary> {
+        let mut information = Matrix6::zeros();
+        for (o, _) in obs.iter().zip(used).filter(|(_, &u)| u) {
+            let a = self.per_point.get(o.point)?.as_ref()?;
+            if !(o.sigma_px.is_finite() && o.sigma_px > 0.0) {
+                return None;
+            }
+            information += a / (o.sigma_px * o.sigma_px);
+        }
+        let observed = obs
+            .iter()
+            .filter_map(|o| self.points_m.get(o.point).copied());
+        let length_m = PointGeometry::of(observed).rms_radius_m();
+        Some(CovarianceSummary::of(&information, length_m))
+    }
 }
 
 /// Rank-aware pseudo-inverse of an information matrix and its conditioning.

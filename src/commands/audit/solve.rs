@@ -57,13 +57,13 @@ pub fn solve_all(
                 reference_known = true;
             }
         }
-        let solver = FrameSolver {
-            camera: &setup.camera,
-            probe: &setup.probe,
-            drogue: &setup.drogue,
-            reference: solved.reference,
-            options: PnpOptions::default(),
-        };
+        let solver = FrameSolver::new(
+            &setup.camera,
+            &setup.probe,
+            &setup.drogue,
+            solved.reference,
+            PnpOptions::default(),
+        );
         let (records, read) = if rayon::current_thread_index().is_some() {
             // Already on a pool thread (audits run in parallel, e.g. a sensitivity study): a
             // blocking join here would hold a worker the solve itself needs, so no overlap.
