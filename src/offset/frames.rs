@@ -5,6 +5,9 @@
 //! previous frame's. Block boundaries depend only on frame order, so results do not depend on
 //! thread scheduling.
 
+use std::collections::HashMap;
+use std::sync::Mutex;
+
 use nalgebra::{Isometry3, Matrix6, Vector3, Vector6};
 use rayon::prelude::*;
 
@@ -103,7 +106,7 @@ impl FrameRecord {
 
 /// What the per-frame solve needs: the camera, both models, the mount deviations are measured
 /// from, and the solver settings.
-#[derive(Debug, Clone)]
+#[derive(Debug)]
 pub struct FrameSolver<'a> {
     pub camera: &'a Camera,
     pub probe: &'a KeypointModel,
@@ -113,6 +116,7 @@ pub struct FrameSolver<'a> {
     /// The probe points' information at the reference mount and the deviation Jacobian there:
     /// what a frame's deviation covariance is computed from.
     at_reference: ReferenceGeometry,
+    covariances: CovarianceCache,
 }
 
 /// The probe seen from the reference mount.
@@ -122,23 +126,22 @@ struct ReferenceGeometry {
     jacobian: Matrix6<f64>,
 }
 
-/// Deviation covariances already computed in a block, by the set of points used and their
-/// common sigma: most frames of a session see the same points with the same sigma.
-#[derive(Debug, Clone, Default)]
-struct CovarianceCache {
-    entries: Vec<(UsedPoints, PackedSym6)>,
-    next: usize,
-}
+/// Deviation covariances already computed, by the set of points used and their common sigma:
+/// most frames of a session see the same few sets with the same sigma. Shared by the solver's
+/// parallel blocks (the lock is taken twice per frame at most, beside a pose solve).
+#[derive(Debug, Default)]
+struct CovarianceCache(Mutex<HashMap<UsedPoints, PackedSym6>>);
 
 /// A set of model points (indices below 128) used with one common sigma.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 struct UsedPoints {
     mask: u128,
     sigma_bits: u64,
 }
 
-/// Sets remembered per block: the full set and the few dropout patterns around it.
-const CACHED_SETS: usize = 4;
+/// Distinct sets remembered: beyond this (sigmas that vary from frame to frame) the cache only
+/// costs, and it stops growing.
+const CACHED_SETS: usize = 256;
 
 impl UsedPoints {
     /// The key of the observations flagged in `used`, or `None` when it has none (a point index
@@ -164,33 +167,36 @@ impl UsedPoints {
 
 impl CovarianceCache {
     fn get_or_insert(
-        &mut self,
+        &self,
         key: Option<UsedPoints>,
         compute: impl FnOnce() -> Option<PackedSym6>,
     ) -> Option<PackedSym6> {
         let Some(key) = key else {
             return compute();
         };
-        if let Some((_, c)) = self.entries.iter().find(|(k, _)| *k == key) {
+        // A poisoned lock only means another block panicked; the map itself is whole.
+        let lock = || {
+            self.0
+                .lock()
+                .unwrap_or_else(|poisoned| poisoned.into_inner())
+        };
+        if let Some(c) = lock().get(&key) {
             return Some(*c);
         }
         let c = compute()?;
-        if self.entries.len() < CACHED_SETS {
-            self.entries.push((key, c));
-        } else {
-            self.entries[self.next] = (key, c);
-            self.next = (self.next + 1) % CACHED_SETS;
+        let mut map = lock();
+        if map.len() < CACHED_SETS {
+            map.insert(key, c);
         }
         Some(c)
     }
 }
 
-/// Warm starts carried from one frame to the next inside a block, and the block's covariances.
+/// Warm starts carried from one frame to the next inside a block.
 #[derive(Debug, Clone, Default)]
 struct WarmStarts {
     probe: Option<Isometry3<f64>>,
     drogue: Option<Isometry3<f64>>,
-    covariances: CovarianceCache,
 }
 
 impl<'a> FrameSolver<'a> {
@@ -214,6 +220,7 @@ impl<'a> FrameSolver<'a> {
             reference,
             options,
             at_reference,
+            covariances: CovarianceCache::default(),
         }
     }
 }
@@ -250,9 +257,7 @@ impl FrameSolver<'_> {
         );
         warm.probe = probe.estimate().map(|e| e.pose);
         warm.drogue = drogue.estimate().map(|e| e.pose);
-        let deviation = probe
-            .estimate()
-            .map(|e| self.deviation(e, &det.probe, &mut warm.covariances));
+        let deviation = probe.estimate().map(|e| self.deviation(e, &det.probe));
         let drogue_camera_m = drogue
             .estimate()
             .map(|e| point_in_camera(e, &self.drogue.reference_point()));
@@ -285,16 +290,17 @@ impl FrameSolver<'_> {
         &self,
         estimate: &PoseEstimate,
         obs: &[Observation],
-        cache: &mut CovarianceCache,
     ) -> (Mount, Vector6<f64>, PackedSym6) {
         let geometry = &self.at_reference;
-        let covariance = cache.get_or_insert(UsedPoints::of(obs, &estimate.inliers), || {
-            let summary = geometry.points.summary(obs, &estimate.inliers)?;
-            Some(deviation_covariance_packed(
-                &geometry.jacobian,
-                &summary.covariance,
-            ))
-        });
+        let covariance =
+            self.covariances
+                .get_or_insert(UsedPoints::of(obs, &estimate.inliers), || {
+                    let summary = geometry.points.summary(obs, &estimate.inliers)?;
+                    Some(deviation_covariance_packed(
+                        &geometry.jacobian,
+                        &summary.covariance,
+                    ))
+                });
         match covariance {
             Some(c) => {
                 let (mount, value) = observed_deviation(estimate, &self.reference);

@@ -88,7 +88,8 @@ impl PointInformation {
 
     /// The information of the observations flagged in `used` (parallel to `obs`) at the fixed
     /// pose, summarised as `solve_pose` summarises its own (rotations scaled by the RMS radius of
-    /// all observed points). `None` when a used point names no model point, has no information at
+    /// the used points, so that the result depends on the used points and their sigmas alone).
+    /// `None` when a used point names no model point, has no information at
     /// the pose, or has a sigma that is not positive and finite.
     pub fn summary(&self, obs: &[Observation], used: &[bool]) -> Option<CovarianceSummary> {
         let mut information = Matrix6::zeros();
@@ -99,10 +100,12 @@ impl PointInformation {
             }
             information += a / (o.sigma_px * o.sigma_px);
         }
-        let observed = obs
+        let points = obs
             .iter()
-            .filter_map(|o| self.points_m.get(o.point).copied());
-        let length_m = PointGeometry::of(observed).rms_radius_m();
+            .zip(used)
+            .filter(|(_, &u)| u)
+            .filter_map(|(o, _)| self.points_m.get(o.point).copied());
+        let length_m = PointGeometry::of(points).rms_radius_m();
         Some(CovarianceSummary::of(&information, length_m))
     }
 }

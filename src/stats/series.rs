@@ -14,6 +14,54 @@ use super::packed::PackedSym6;
 use super::StatsError;
 use crate::tol;
 
+/// Distinct matrices a parallel task remembers with what was computed from them: frames that
+/// used the same keypoints share their covariance (evaluated at the reference mount), and a
+/// session has a few such sets (all points, and the usual dropouts).
+const RECENT_MATRICES: usize = 8;
+
+/// What was last computed from a few distinct keys, so a repeated key costs a comparison.
+#[derive(Debug)]
+struct Recent<K, V> {
+    entries: Vec<(K, V)>,
+    oldest: usize,
+}
+
+impl<K, V> Default for Recent<K, V> {
+    fn default() -> Self {
+        Self {
+            entries: Vec::with_capacity(RECENT_MATRICES),
+            oldest: 0,
+        }
+    }
+}
+
+impl<K: PartialEq, V: Clone> Recent<K, V> {
+    /// The value remembered for `key`, or `compute(&key)` (remembered in place of the oldest).
+    fn get_or_try_insert<E>(
+        &mut self,
+        key: K,
+        compute: impl FnOnce(&K) -> Result<V, E>,
+    ) -> Result<V, E> {
+        if let Some((_, v)) = self.entries.iter().find(|(k, _)| *k == key) {
+            return Ok(v.clone());
+        }
+        let v = compute(&key)?;
+        if self.entries.len() < RECENT_MATRICES {
+            self.entries.push((key, v.clone()));
+        } else {
+            self.entries[self.oldest] = (key, v.clone());
+            self.oldest = (self.oldest + 1) % RECENT_MATRICES;
+        }
+        Ok(v)
+    }
+
+    /// [`get_or_try_insert`](Self::get_or_try_insert) for a computation that cannot fail.
+    fn get_or_insert(&mut self, key: K, compute: impl FnOnce(&K) -> V) -> V {
+        self.get_or_try_insert(key, |k| Ok::<V, std::convert::Infallible>(compute(k)))
+            .unwrap_or_else(|never| match never {})
+    }
+}
+
 /// One solved frame: its 6-vector deviation (any units, e.g. mm and degrees) and covariance.
 #[derive(Debug, Clone, PartialEq)]
 pub struct DeviationSample {
@@ -165,9 +213,14 @@ impl DeviationSeries {
                 });
             }
         }
+        // Frames that used the same keypoints share one covariance (it is evaluated at the
+        // reference mount): each is inverted once per parallel task.
         let information = (0..n)
             .into_par_iter()
-            .map(|index| Information::from_covariance(&covariance(index), index))
+            .map_init(Recent::default, |recent, index| {
+                let c = covariance(index);
+                recent.get_or_try_insert(c, |c| Information::from_covariance(c, index))
+            })
             .collect::<Result<Vec<_>, _>>();
         let information = match information {
             Ok(information) => information,
@@ -439,23 +492,8 @@ impl<'a> EffectiveModel<'a> {
         // Unzipped as they are made: no per-frame tuple vector beside the two results.
         let (roots, tagged): (Vec<PackedSym6>, Vec<(f64, bool)>) = information
             .par_iter()
-            .map(|w| {
-                let omega = whitening.information_in_whitened(&w.matrix());
-                let spectrum = Spectrum::new(&omega, tol::INFORMATION_SUM_RANK_REL);
-                let condition = if spectrum.rank == dim {
-                    let kept = spectrum.values.iter().filter(|v| **v > 0.0);
-                    let (low, high) = kept.fold((f64::INFINITY, 0.0f64), |(lo, hi), &v| {
-                        (lo.min(v), hi.max(v))
-                    });
-                    high / low
-                } else {
-                    f64::INFINITY
-                };
-                let common = (omega - identity).norm() <= limit;
-                (
-                    PackedSym6::from_matrix(&spectrum.sqrt()),
-                    (condition, common),
-                )
+            .map_init(Recent::default, |recent, w| {
+                recent.get_or_insert(w.matrix(), |w| root_and_tags(&whitening, w, dim, limit))
             })
             .unzip();
         let common = tagged.iter().all(|t| t.1);
@@ -595,7 +633,11 @@ impl<'a> EffectiveModel<'a> {
         }
         (0..self.len())
             .into_par_iter()
-            .map(|t| Spectrum::new(&self.effective(t), 0.0).sqrt() * self.z(t))
+            .map_init(Recent::default, |recent, t| {
+                let root =
+                    recent.get_or_insert(self.effective(t), |e| Spectrum::new(e, 0.0).sqrt());
+                root * self.z(t)
+            })
             .collect()
     }
 
@@ -604,6 +646,33 @@ impl<'a> EffectiveModel<'a> {
         self.whitening
             .information_in_original(&self.effective_with(t, inflation))
     }
+}
+
+/// A frame's information root `Ω_t^{1/2}` in the common whitening, its condition (infinite below
+/// full rank `dim`) and whether `Ω_t` is the identity to within `limit` (Frobenius), from its
+/// nominal information `w`.
+fn root_and_tags(
+    whitening: &CommonWhitening,
+    w: &Matrix6<f64>,
+    dim: usize,
+    limit: f64,
+) -> (PackedSym6, (f64, bool)) {
+    let omega = whitening.information_in_whitened(w);
+    let spectrum = Spectrum::new(&omega, tol::INFORMATION_SUM_RANK_REL);
+    let condition = if spectrum.rank == dim {
+        let kept = spectrum.values.iter().filter(|v| **v > 0.0);
+        let (low, high) = kept.fold((f64::INFINITY, 0.0f64), |(lo, hi), &v| {
+            (lo.min(v), hi.max(v))
+        });
+        high / low
+    } else {
+        f64::INFINITY
+    };
+    let common = (omega - active_identity(dim)).norm() <= limit;
+    (
+        PackedSym6::from_matrix(&spectrum.sqrt()),
+        (condition, common),
+    )
 }
 
 /// The information-weighted cost under the effective information: the squared-error cost of
