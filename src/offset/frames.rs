@@ -105,14 +105,15 @@ impl FrameRecord {
 }
 
 /// What the per-frame solve needs: the camera, both models, the mount deviations are measured
-/// from, and the solver settings.
+/// from, and the solver settings (fixed at construction: the reference geometry is derived from
+/// them).
 #[derive(Debug)]
 pub struct FrameSolver<'a> {
-    pub camera: &'a Camera,
-    pub probe: &'a KeypointModel,
-    pub drogue: &'a KeypointModel,
-    pub reference: Mount,
-    pub options: PnpOptions,
+    camera: &'a Camera,
+    probe: &'a KeypointModel,
+    drogue: &'a KeypointModel,
+    reference: Mount,
+    options: PnpOptions,
     /// The probe points' information at the reference mount and the deviation Jacobian there:
     /// what a frame's deviation covariance is computed from.
     at_reference: ReferenceGeometry,
