@@ -7,6 +7,9 @@
 //! `cargo run --release --example pose_bias -- [PRESET [SIGMA_PX [BATCHES [DROPOUT]]]]`
 //! (defaults: clean 0.5 20 0).
 
+#[path = "../tests/weighting_common/mod.rs"]
+mod weighting_common;
+
 use mountdrift::offset::{deviation_jacobian, mount_deviation};
 use mountdrift::pnp::{fisher_information, CovarianceSummary};
 use mountdrift::pnp::{solve_pose, PnpOptions};
@@ -14,50 +17,20 @@ use mountdrift::session::Observation;
 use mountdrift::sim::imaging::Imager;
 use mountdrift::sim::presets::preset;
 use mountdrift::sim::Simulation;
-use nalgebra::{Matrix6, Vector6};
+use nalgebra::Matrix6;
 use rand::{RngExt, SeedableRng};
 use rand_distr::{Distribution, Normal};
+use weighting_common::BatchMeans;
 
-struct Acc {
-    info: Matrix6<f64>,
-    sum: Vector6<f64>,
-    batch: Vec<Vector6<f64>>,
-}
-impl Acc {
-    fn new() -> Self {
-        Self {
-            info: Matrix6::zeros(),
-            sum: Vector6::zeros(),
-            batch: vec![],
-        }
-    }
-    fn add(&mut self, w: &Matrix6<f64>, d: &Vector6<f64>) {
-        self.info += w;
-        self.sum += w * d;
-    }
-    fn close(&mut self) {
-        self.batch.push(self.info.try_inverse().unwrap() * self.sum);
-        self.info = Matrix6::zeros();
-        self.sum = Vector6::zeros();
-    }
-    fn report(&self, name: &str) {
-        let k = self.batch.len() as f64;
-        let mean: Vector6<f64> = self.batch.iter().sum::<Vector6<f64>>() / k;
-        let var: Vector6<f64> = self
-            .batch
-            .iter()
-            .map(|b| (b - mean).component_mul(&(b - mean)))
-            .sum::<Vector6<f64>>()
-            / (k - 1.0);
-        let se = var.map(|v| (v / k).sqrt());
-        println!("{name:<10} mean {:>8.4?}", mean.as_slice());
-        println!(
-            "{:<10} se   {:>8.4?}  batch sd {:.4?}",
-            "",
-            se.as_slice(),
-            var.map(f64::sqrt).as_slice()
-        );
-    }
+/// Prints a mean with its standard error and the batch spread.
+fn report(name: &str, means: &BatchMeans) {
+    println!("{name:<10} mean {:>8.4?}", means.mean().as_slice());
+    println!(
+        "{:<10} se   {:>8.4?}  batch sd {:.4?}",
+        "",
+        means.standard_error().as_slice(),
+        means.batch_sd().as_slice()
+    );
 }
 
 fn main() {
@@ -82,7 +55,11 @@ fn main() {
     let mut rng = rand_pcg::Pcg64Mcg::seed_from_u64(7);
     let n = Normal::new(0.0, sigma).unwrap();
     let opts = PnpOptions::default();
-    let (mut own, mut truth, mut flat) = (Acc::new(), Acc::new(), Acc::new());
+    let (mut own, mut truth, mut flat) = (
+        BatchMeans::default(),
+        BatchMeans::default(),
+        BatchMeans::default(),
+    );
     for _ in 0..batches {
         for _ in 0..per_batch {
             let mut obs = Vec::new();
@@ -118,7 +95,7 @@ fn main() {
         flat.close();
     }
     println!("{name} sigma {sigma} dropout {dropout}: {batches} batches of {per_batch}");
-    own.report("own");
-    truth.report("reference");
-    flat.report("unweighted");
+    report("own", &own);
+    report("reference", &truth);
+    report("unweighted", &flat);
 }

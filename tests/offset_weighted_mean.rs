@@ -12,60 +12,19 @@
 //! solution. It must be off by more than 4.5 standard errors in x: that weighting puts about
 //! +0.4 mm in x into this geometry at 0.5 px.
 
+mod weighting_common;
+
 use mountdrift::offset::frames::FrameSolver;
 use mountdrift::offset::mount_deviation;
 use mountdrift::pnp::{solve_pose, PnpOptions};
 use mountdrift::sim::scenario::NoiseSpec;
 use mountdrift::sim::{preset, Simulation};
-use nalgebra::{Matrix6, Vector6};
+use nalgebra::Vector6;
+use weighting_common::BatchMeans;
 
 const FRAMES: usize = 20_000;
 const BATCHES: usize = 20;
 const LIMIT_SE: f64 = 4.5;
-
-/// Information-weighted means of consecutive batches.
-struct BatchMeans {
-    information: Matrix6<f64>,
-    weighted: Vector6<f64>,
-    means: Vec<Vector6<f64>>,
-}
-
-impl BatchMeans {
-    fn new() -> Self {
-        Self {
-            information: Matrix6::zeros(),
-            weighted: Vector6::zeros(),
-            means: Vec::new(),
-        }
-    }
-
-    fn add(&mut self, information: &Matrix6<f64>, deviation: &Vector6<f64>) {
-        self.information += information;
-        self.weighted += information * deviation;
-    }
-
-    fn close(&mut self) {
-        let inverse = self.information.try_inverse().expect("full-rank batch");
-        self.means.push(inverse * self.weighted);
-        *self = Self {
-            means: std::mem::take(&mut self.means),
-            ..Self::new()
-        };
-    }
-
-    /// The grand mean over batches in standard errors (batch scatter), per axis.
-    fn z_scores(&self) -> Vector6<f64> {
-        let k = self.means.len() as f64;
-        let mean: Vector6<f64> = self.means.iter().sum::<Vector6<f64>>() / k;
-        let var: Vector6<f64> = self
-            .means
-            .iter()
-            .map(|m| (m - mean).component_mul(&(m - mean)))
-            .sum::<Vector6<f64>>()
-            / (k - 1.0);
-        mean.zip_map(&var, |m, v| m / (v / k).sqrt())
-    }
-}
 
 #[test]
 fn reference_weighted_mean_of_many_frames_is_unbiased() {
@@ -94,7 +53,7 @@ fn reference_weighted_mean_of_many_frames_is_unbiased() {
         f.drogue.clear();
     }
     let per_batch = frames.len() / BATCHES;
-    let (mut at_reference, mut at_own) = (BatchMeans::new(), BatchMeans::new());
+    let (mut at_reference, mut at_own) = (BatchMeans::default(), BatchMeans::default());
     let options = PnpOptions::default();
     let warm = mount.body_from_camera().inverse();
     for batch in frames.chunks_exact(per_batch) {
@@ -111,14 +70,19 @@ fn reference_weighted_mean_of_many_frames_is_unbiased() {
         at_reference.close();
         at_own.close();
     }
-    let z = at_reference.z_scores();
+    let z = z_scores(&at_reference);
     assert!(
         z.iter().all(|v| v.abs() < LIMIT_SE),
         "reference-weighted mean off by {z:?} standard errors"
     );
-    let z_own = at_own.z_scores();
+    let z_own = z_scores(&at_own);
     assert!(
         z_own[0] > LIMIT_SE,
         "own-solution weighting should show its bias in x; z = {z_own:?}"
     );
+}
+
+/// The grand mean in standard errors, per axis.
+fn z_scores(means: &BatchMeans) -> Vector6<f64> {
+    means.mean().component_div(&means.standard_error())
 }
