@@ -273,6 +273,32 @@ fn robust_directional_allan(
     tau as f64 / 2.0 * *median / CHI2_1_MEDIAN
 }
 
+/// On a short series, how far the long-run variance lies beyond the smallest scale `m`, for the
+/// choice of the null class only: the pooled Richardson ratio `(2 Σκ_j(2m) − Σκ_j(m)) / Σκ_j(m)`
+/// of the robust directional Allan variances (at least 1; 1 when the longest segment is shorter
+/// than `4m`). The studentiser keeps the scale `m`; the class sets how conservative the
+/// penalty's and the online detector's null is where the noise has long memory.
+fn short_series_class_ratio(
+    sums: &PrefixSums,
+    segments: &[(usize, usize)],
+    m: usize,
+    directions: &Matrix6<f64>,
+    factors: &Vector6<f64>,
+) -> f64 {
+    let longest = segments.iter().map(|(a, b)| b - a).max().unwrap_or(0);
+    let lower: f64 = factors.sum();
+    if 4 * m > longest || lower <= 0.0 {
+        return 1.0;
+    }
+    let upper: f64 = (0..6)
+        .filter(|&j| factors[j] > 0.0)
+        .map(|j| {
+            robust_directional_allan(sums, segments, 2 * m, &directions.column(j).into_owned())
+        })
+        .sum();
+    (richardson_long_run(lower, upper) / lower).max(1.0)
+}
+
 /// Estimates the effective-noise inflation `Γ` of the whitened series `z` (active coordinates
 /// `0..dim`), using windows inside `segments` (sample ranges believed free of mean shifts; frames
 /// to be left out, such as frames with a rank-deficient information, split the segments).
@@ -363,12 +389,17 @@ pub fn estimate_effective_noise(
     // Pooled over the directions (the trace): the eigenvalues of a noisy estimate spread about
     // the truth, so their largest ratio would call white noise correlated; correlation confined
     // to one direction is still caught by the lag-1 coefficient.
+    let class_ratio = if short {
+        short_series_class_ratio(&sums, segments, scales.min_scale, &directions, &factors)
+    } else {
+        1.0
+    };
     let at_scale = |marginal: &Vector6<f64>| {
         let active = (0..6).filter(|&j| factors[j] > 0.0 && marginal[j] > 0.0);
         let (studentiser, variance) =
             active.fold((0.0, 0.0), |(k, v), j| (k + factors[j], v + marginal[j]));
         if variance > 0.0 {
-            ar1_matching_long_run(studentiser / variance)
+            ar1_matching_long_run(class_ratio * studentiser / variance)
         } else {
             0.0
         }
