@@ -25,6 +25,9 @@
 //! intervals a long-run version is used,
 //! floored at 1 (never more precise than the per-frame covariances claim).
 //! Windows are taken inside given segments only, so known mean shifts do not inflate it.
+//! A series shorter than [`EXTENSION_MIN_MULTIPLE`] minimum lengths is studentised at the minimum
+//! length alone, from the median of the squared window differences along each direction: there
+//! an unknown shift's windows are too large a share for the mean (`robust_directional_allan`).
 //!
 //! The same pass measures the lag-1 autocorrelation of each principal direction (of the residuals
 //! about the segment means, and a shift-robust version from a semivariogram): the penalty
