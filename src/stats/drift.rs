@@ -242,8 +242,8 @@ pub fn analyse_drift<'s>(
         objective: 0.0,
     };
     let mut rounds = 0;
-    // The last round's inflation and penalty when its search found no change point.
-    let mut quiet_round: Option<(Matrix6<f64>, f64)> = None;
+    // The last round, when its search found no change point.
+    let mut quiet_round: Option<QuietRound> = None;
     let (noise, penalty, converged, cost, online) = loop {
         rounds += 1;
         let windows = noise_windows(&segmentation.segments(), &regular);
@@ -264,28 +264,43 @@ pub fn analyse_drift<'s>(
         // The same cost as a round that found no change point, at a penalty at least as large:
         // no change point at β means β ≥ β* (`penalty` module), so there is none at any larger
         // β either, and the search is not run again (a clean series needs one search, not two).
-        let repeats_quiet = quiet_round.take().is_some_and(|(inflation, beta)| {
-            inflation == noise.inflation && penalty.penalty >= beta
-        });
-        // The online replay depends only on this round's model and penalty: it runs on the
-        // other core while the (sequential) search runs, and is kept if this round is the last.
-        let (next, online) = if repeats_quiet {
-            (segmentation.clone(), None)
-        } else {
-            let (next, online) = rayon::join(
-                || pelt(&cost, penalty.penalty, m),
-                || online_alarm(series, &model, &penalty, options, &calibrators.online),
-            );
-            (next?, Some(online))
+        let repeated = quiet_round
+            .take()
+            .filter(|q| q.inflation == noise.inflation && penalty.penalty >= q.penalty);
+        // The online replay depends only on this round's model (its inflation) and its null
+        // class: it runs on the other core while the (sequential) search runs, is kept if this
+        // round is the last, and a repeated quiet round reuses it when the class is the same.
+        let (next, online) = match repeated {
+            Some(quiet) => (
+                segmentation.clone(),
+                quiet
+                    .online
+                    .filter(|o| o.null_lag1.to_bits() == penalty.null_lag1.to_bits()),
+            ),
+            None => {
+                let (next, alarm) = rayon::join(
+                    || pelt(&cost, penalty.penalty, m),
+                    || online_alarm(series, &model, &penalty, options, &calibrators.online),
+                );
+                let online = RoundOnline {
+                    null_lag1: penalty.null_lag1,
+                    alarm,
+                };
+                (next?, Some(online))
+            }
         };
-        if next.change_points().is_empty() {
-            quiet_round = Some((noise.inflation, penalty.penalty));
-        }
         // The first round only finds the segments the precise lag-1 estimate needs.
         let settled = rounds > 1 && next.breakpoints == segmentation.breakpoints;
         segmentation = next;
         if settled || rounds >= options.max_rounds {
             break (noise, penalty, settled, cost, online);
+        }
+        if segmentation.change_points().is_empty() {
+            quiet_round = Some(QuietRound {
+                inflation: noise.inflation,
+                penalty: penalty.penalty,
+                online,
+            });
         }
     };
     let mut warnings = Vec::new();
@@ -315,7 +330,7 @@ pub fn analyse_drift<'s>(
     };
     let estimates = describe(series, &fit, options)?;
     let online = match online {
-        Some(online) => online?,
+        Some(online) => online.alarm?,
         None => online_alarm(series, &model, &penalty, options, &calibrators.online)?,
     };
     let online = online.map(|alarm| alarm.after(&estimates.0));
@@ -332,6 +347,20 @@ pub fn analyse_drift<'s>(
         online,
         warnings,
     })
+}
+
+/// A round whose search found no change point: what a following round with the same inflation
+/// and a penalty at least as large can reuse.
+struct QuietRound {
+    inflation: Matrix6<f64>,
+    penalty: f64,
+    online: Option<RoundOnline>,
+}
+
+/// A round's online replay and the null class it was calibrated for.
+struct RoundOnline {
+    null_lag1: f64,
+    alarm: Result<Option<OnlineAlarm>, StatsError>,
 }
 
 /// Replays the online MEWMA over the effective-whitened series `Ω̃_t^{1/2} z_t` (the delay to the

@@ -80,12 +80,19 @@ impl NoiseScales {
         }
     }
 
+    /// Whether an `n`-sample series holds fewer than [`EXTENSION_MIN_MULTIPLE`] minimum segment
+    /// lengths: it is studentised at the smallest scale alone, robustly (see
+    /// `estimate_effective_noise`).
+    pub fn is_short(&self, n: usize) -> bool {
+        n < EXTENSION_MIN_MULTIPLE * self.min_scale
+    }
+
     /// Whether the grid of an `n`-sample series reaches `2 · min_scale` only by the floor (the
     /// fraction alone would stop at the smallest scale): such short series are studentised by
     /// a pooled extrapolation (see `estimate_effective_noise`).
     pub fn is_extended(&self, n: usize) -> bool {
         ((n as f64 * self.max_scale_fraction).floor() as usize) < 2 * self.min_scale
-            && n >= EXTENSION_MIN_MULTIPLE * self.min_scale
+            && !self.is_short(n)
     }
 
     /// Scales from `min_scale` upward by factors of 2 up to `max_scale_fraction · n` and
@@ -102,13 +109,14 @@ impl NoiseScales {
     /// on a few hundred samples, but the null is studentised by the same estimator.
     pub fn grid(&self, n: usize) -> Vec<usize> {
         let by_length = (n as f64 * self.max_scale_fraction).floor() as usize;
-        let top = by_length.min(self.max_scale_multiple * self.min_scale).max(
-            if n >= EXTENSION_MIN_MULTIPLE * self.min_scale {
-                2 * self.min_scale
-            } else {
-                self.min_scale
-            },
-        );
+        let top =
+            by_length
+                .min(self.max_scale_multiple * self.min_scale)
+                .max(if self.is_short(n) {
+                    self.min_scale
+                } else {
+                    2 * self.min_scale
+                });
         let mut scales = Vec::new();
         let mut tau = self.min_scale.max(1);
         while tau <= top && 2 * tau <= n {
@@ -222,6 +230,22 @@ impl PrefixSums {
     }
 }
 
+/// The differences `δ_t = mean(z[t..t+τ]) − mean(z[t−τ..t])` of all windows `t−τ..t+τ` that lie
+/// inside one of `segments`.
+fn window_differences<'a>(
+    sums: &'a PrefixSums,
+    segments: &'a [(usize, usize)],
+    tau: usize,
+) -> impl Iterator<Item = Vector6<f64>> + 'a {
+    segments
+        .iter()
+        .filter(move |&&(start, end)| end - start >= 2 * tau)
+        .flat_map(move |&(start, end)| {
+            (start + tau..=end - tau)
+                .map(move |t| sums.window_mean(t, tau) - sums.window_mean(t - tau, tau))
+        })
+}
+
 /// `G(τ)` from all windows `t−τ..t+τ` that lie inside one of `segments`, and their count.
 fn scaled_allan(
     sums: &PrefixSums,
@@ -230,15 +254,9 @@ fn scaled_allan(
 ) -> (Matrix6<f64>, usize) {
     let mut acc = Matrix6::zeros();
     let mut count = 0;
-    for &(start, end) in segments {
-        if end - start < 2 * tau {
-            continue;
-        }
-        for t in start + tau..=end - tau {
-            let delta = sums.window_mean(t, tau) - sums.window_mean(t - tau, tau);
-            acc += delta * delta.transpose();
-            count += 1;
-        }
+    for delta in window_differences(sums, segments, tau) {
+        acc += delta * delta.transpose();
+        count += 1;
     }
     if count > 0 {
         acc *= tau as f64 / (2.0 * count as f64);
@@ -246,41 +264,43 @@ fn scaled_allan(
     (acc, count)
 }
 
-/// `uᵀ G(τ) u` from the median of the squared window differences along `u` instead of their
-/// mean: `τ/2 · median((uᵀδ_t)²) / median(χ²₁)`, the same quantity for Gaussian noise. On a short
-/// series the windows straddling one mean shift are a large share of all windows (two in ten at
-/// 120 samples and `τ = 10`), and their mean grows with the square of the shift. A large shift then
-/// read as noise and was not found, while a small one was (`sensitivity` of 6 s sessions:
-/// 2 and 3 mm found 4 of 4, 6 and 8 mm 0 of 4). The median moves by a bounded amount.
+/// `u_jᵀ G(τ) u_j` for every direction `u_j` (columns of `directions`) from the median of the
+/// squared window differences along it instead of their mean:
+/// `τ/2 · median((u_jᵀδ_t)²) / median(χ²₁)`, the same quantity for Gaussian noise; zero without
+/// windows. On a short series the windows straddling one mean shift are a large share of all
+/// windows (two in ten at 120 samples and `τ = 10`), and their mean grows with the square of the
+/// shift. A large shift then read as noise and was not found, while a small one was
+/// (`sensitivity` of 6 s sessions: 2 and 3 mm found 4 of 4, 6 and 8 mm 0 of 4). The median moves
+/// by a bounded amount.
 fn robust_directional_allan(
     sums: &PrefixSums,
     segments: &[(usize, usize)],
     tau: usize,
-    u: &Vector6<f64>,
-) -> f64 {
-    let mut squares = Vec::new();
-    for &(start, end) in segments {
-        if end - start < 2 * tau {
-            continue;
-        }
-        for t in start + tau..=end - tau {
-            let delta = sums.window_mean(t, tau) - sums.window_mean(t - tau, tau);
-            squares.push(u.dot(&delta).powi(2));
+    directions: &Matrix6<f64>,
+) -> Vector6<f64> {
+    let mut squares: [Vec<f64>; 6] = Default::default();
+    for delta in window_differences(sums, segments, tau) {
+        let along = directions.tr_mul(&delta);
+        for (j, list) in squares.iter_mut().enumerate() {
+            list.push(along[j] * along[j]);
         }
     }
-    if squares.is_empty() {
-        return 0.0;
-    }
-    let mid = squares.len() / 2;
-    let (_, median, _) = squares.select_nth_unstable_by(mid, f64::total_cmp);
-    tau as f64 / 2.0 * *median / CHI2_1_MEDIAN
+    Vector6::from_fn(|j, _| {
+        let list = &mut squares[j];
+        if list.is_empty() {
+            return 0.0;
+        }
+        let mid = list.len() / 2;
+        let (_, median, _) = list.select_nth_unstable_by(mid, f64::total_cmp);
+        tau as f64 / 2.0 * *median / CHI2_1_MEDIAN
+    })
 }
 
 /// On a short series, how far the long-run variance lies beyond the smallest scale `m`, for the
 /// choice of the null class only: the pooled Richardson ratio `(2 Σκ_j(2m) − Σκ_j(m)) / Σκ_j(m)`
-/// of the robust directional Allan variances (at least 1; 1 when the longest segment is shorter
-/// than `4m`). The studentiser keeps the scale `m`; the class sets how conservative the
-/// penalty's and the online detector's null is where the noise has long memory.
+/// of the robust directional Allan variances over the active directions (at least 1; 1 when the
+/// longest segment is shorter than `4m`). The studentiser keeps the scale `m`; the class sets how
+/// conservative the penalty's and the online detector's null is where the noise has long memory.
 fn short_series_class_ratio(
     sums: &PrefixSums,
     segments: &[(usize, usize)],
@@ -293,11 +313,10 @@ fn short_series_class_ratio(
     if 4 * m > longest || lower <= 0.0 {
         return 1.0;
     }
+    let at_double = robust_directional_allan(sums, segments, 2 * m, directions);
     let upper: f64 = (0..6)
         .filter(|&j| factors[j] > 0.0)
-        .map(|j| {
-            robust_directional_allan(sums, segments, 2 * m, &directions.column(j).into_owned())
-        })
+        .map(|j| at_double[j])
         .sum();
     (richardson_long_run(lower, upper) / lower).max(1.0)
 }
@@ -335,7 +354,10 @@ pub fn estimate_effective_noise(
     let directions = Spectrum::new(&pooled, 0.0).vectors;
     let mut factors = Vector6::zeros();
     let mut scale_of_max = [0; 6];
-    let short = z.len() < EXTENSION_MIN_MULTIPLE * scales.min_scale;
+    let short = scales.is_short(z.len());
+    // Short series: the smallest scale alone, from the median of the window differences.
+    let robust =
+        short.then(|| robust_directional_allan(&sums, segments, estimates[0].0, &directions));
     let pooled_ratio = if scales.is_extended(z.len()) {
         short_series_ratio(&estimates)
     } else {
@@ -353,13 +375,12 @@ pub fn estimate_effective_noise(
                 scale_of_max[j] = *tau;
             }
         }
-        if short {
-            // Short series: the smallest scale alone, from the median of the window differences.
-            let (tau, _, _) = estimates[0];
-            factors[j] = robust_directional_allan(&sums, segments, tau, &u.into_owned());
-            scale_of_max[j] = tau;
+        if let Some(robust) = &robust {
+            factors[j] = robust[j];
+            scale_of_max[j] = estimates[0].0;
         } else if let Some(ratio) = pooled_ratio {
-            // Short series: the pooled extrapolation ratio on the precise smallest scale.
+            // Series just long enough for `2m`: the pooled extrapolation ratio on the precise
+            // smallest scale.
             let k = u.dot(&(estimates[0].1 * u)) * ratio;
             factors[j] = k.max(RICHARDSON_FLOOR_FRACTION * factors[j]);
         } else if let Some((tau, lower, upper)) = richardson_pair(&estimates, scales.min_scale) {

@@ -634,8 +634,10 @@ impl<'a> EffectiveModel<'a> {
         (0..self.len())
             .into_par_iter()
             .map_init(Recent::default, |recent, t| {
-                let root =
-                    recent.get_or_insert(self.effective(t), |e| Spectrum::new(e, 0.0).sqrt());
+                // Equal roots give equal effective information: the key costs no product.
+                let root = recent.get_or_insert(self.roots[t], |_| {
+                    Spectrum::new(&self.effective(t), 0.0).sqrt()
+                });
                 root * self.z(t)
             })
             .collect()

@@ -47,6 +47,18 @@ pub fn solve_all(
         }),
     };
     let mut reference_known = setup.nominal.is_some();
+    let solver_for = |reference| {
+        FrameSolver::new(
+            &setup.camera,
+            &setup.probe,
+            &setup.drogue,
+            reference,
+            PnpOptions::default(),
+        )
+    };
+    // One solver for the session (its reference geometry and covariances are kept across
+    // batches), made again only when the first observed mount becomes the reference.
+    let mut solver = solver_for(solved.reference);
     let mut frames = frames;
     let mut next = read_batch(&mut frames, &mut solved.true_vector_m)?;
     while !next.is_empty() {
@@ -55,15 +67,9 @@ pub fn solve_all(
             if let Some(mount) = first_observed_mount(setup, &batch) {
                 solved.reference = mount;
                 reference_known = true;
+                solver = solver_for(mount);
             }
         }
-        let solver = FrameSolver::new(
-            &setup.camera,
-            &setup.probe,
-            &setup.drogue,
-            solved.reference,
-            PnpOptions::default(),
-        );
         let (records, read) = if rayon::current_thread_index().is_some() {
             // Already on a pool thread (audits run in parallel, e.g. a sensitivity study): a
             // blocking join here would hold a worker the solve itself needs, so no overlap.
