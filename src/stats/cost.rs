@@ -393,34 +393,46 @@ impl SegmentCost for InformationCost {
 
     /// Evaluates [`LANES`] starts at a time with the factorisations in lockstep (independent
     /// dependency chains, and vector registers where the target has them); each lane performs
-    /// exactly the operations of [`cost`](SegmentCost::cost), so the results are the same.
-    #[allow(clippy::needless_range_loop)] // a lane index runs over several arrays at once
+    /// exactly the operations of [`cost`](SegmentCost::cost), so the results are the same. The
+    /// last few starts go in a group of two or four (a lane costs about what a single
+    /// evaluation does: the time goes in the chain of divisions, which the lanes share).
     fn costs_to(&self, starts: &[usize], end: usize, out: &mut [f64]) {
-        let hi = &self.rows[end];
         let mut groups = starts.chunks_exact(LANES);
         let mut outs = out.chunks_exact_mut(LANES);
         for (group, o) in (&mut groups).zip(&mut outs) {
-            let lo: [&[f64; ROW]; LANES] = std::array::from_fn(|s| &self.rows[group[s]]);
-            let mut a: [[f64; LANES]; 21] =
-                std::array::from_fn(|k| std::array::from_fn(|s| hi[k] - lo[s][k]));
-            for (r, pad) in self.padding.iter().enumerate() {
-                a[packed_index(r, r)].iter_mut().for_each(|v| *v += pad);
-            }
-            let b: [[f64; LANES]; 6] = std::array::from_fn(|r| {
-                std::array::from_fn(|s| hi[WEIGHTED + r] - lo[s][WEIGHTED + r])
-            });
-            let explained = ldl_quadratic_lanes(&a, &b);
-            for s in 0..LANES {
-                o[s] = match explained[s] {
-                    Some(e) => (hi[SQUARE] - lo[s][SQUARE] - e).max(0.0),
-                    None => self.cost(group[s], end),
-                };
-            }
+            let group: &[usize; LANES] = group.try_into().expect("chunks of LANES");
+            o.copy_from_slice(&self.group_costs(group, end));
         }
-        let rest = groups.remainder();
-        for (o, &start) in outs.into_remainder().iter_mut().zip(rest) {
-            *o = self.cost(start, end);
+        let (rest, rest_out) = (groups.remainder(), outs.into_remainder());
+        match *rest {
+            [] => {}
+            [start] => rest_out[0] = self.cost(start, end),
+            [a, b] => rest_out.copy_from_slice(&self.group_costs(&[a, b], end)),
+            [a, b, c, ..] => rest_out.copy_from_slice(&self.group_costs(&[a, b, c, c], end)[..3]),
         }
+    }
+}
+
+impl InformationCost {
+    /// The costs of `L` starts to `end` in lockstep.
+    #[allow(clippy::needless_range_loop)] // a lane index runs over several arrays at once
+    #[inline]
+    fn group_costs<const L: usize>(&self, group: &[usize; L], end: usize) -> [f64; L] {
+        let hi = &self.rows[end];
+        let lo: [&[f64; ROW]; L] = std::array::from_fn(|s| &self.rows[group[s]]);
+        let mut a: [[f64; L]; 21] =
+            std::array::from_fn(|k| std::array::from_fn(|s| hi[k] - lo[s][k]));
+        for (r, pad) in self.padding.iter().enumerate() {
+            a[packed_index(r, r)].iter_mut().for_each(|v| *v += pad);
+        }
+        let b: [[f64; L]; 6] = std::array::from_fn(|r| {
+            std::array::from_fn(|s| hi[WEIGHTED + r] - lo[s][WEIGHTED + r])
+        });
+        let explained = ldl_quadratic_lanes(&a, &b);
+        std::array::from_fn(|s| match explained[s] {
+            Some(e) => (hi[SQUARE] - lo[s][SQUARE] - e).max(0.0),
+            None => self.cost(group[s], end),
+        })
     }
 }
 

@@ -701,6 +701,14 @@ impl SegmentCost for EffectiveCost {
             Self::PerFrame(c) => c.cost(start, end),
         }
     }
+
+    #[inline]
+    fn costs_to(&self, starts: &[usize], end: usize, out: &mut [f64]) {
+        match self {
+            Self::Common(c) => c.costs_to(starts, end, out),
+            Self::PerFrame(c) => c.costs_to(starts, end, out),
+        }
+    }
 }
 
 fn active_identity(dim: usize) -> Matrix6<f64> {
