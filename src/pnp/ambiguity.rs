@@ -56,7 +56,14 @@ pub(crate) fn examine(
 
 /// Least squares over the given inliers from `start`; `None` unless it converges.
 fn refine_over(problem: &Problem, inliers: &[bool], start: Pose) -> Option<Alternative> {
-    let run = levenberg_marquardt(problem, inliers, Loss::Squared, start, tol::LM_STEP_CHI2)?;
+    let run = levenberg_marquardt(
+        problem,
+        inliers,
+        Loss::Squared,
+        start,
+        tol::LM_STEP_CHI2,
+        tol::LM_INITIAL_DAMPING,
+    )?;
     run.converged.then_some(Alternative {
         pose: run.pose,
         chi2: run.normal.cost,

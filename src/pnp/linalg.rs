@@ -11,12 +11,16 @@ use nalgebra::{SMatrix, SVector};
 /// Matrix Computations, 4th ed., alg. 4.2.1); only the lower triangle of `A` is read.
 pub(crate) struct Cholesky<const N: usize> {
     l: [[f64; N]; N],
+    /// `1 / L_jj`: one division per pivot, multiplications everywhere else (the divisions are
+    /// the long chain of a small solve).
+    inv_diag: [f64; N],
 }
 
 impl<const N: usize> Cholesky<N> {
     /// `None` when `A` is not (numerically) positive definite.
     pub(crate) fn new(a: &SMatrix<f64, N, N>) -> Option<Self> {
         let mut l = [[0.0f64; N]; N];
+        let mut inv_diag = [0.0f64; N];
         for j in 0..N {
             let mut d = a[(j, j)];
             for k in 0..j {
@@ -26,16 +30,18 @@ impl<const N: usize> Cholesky<N> {
                 return None;
             }
             let djj = d.sqrt();
+            let inv = 1.0 / djj;
             l[j][j] = djj;
+            inv_diag[j] = inv;
             for i in j + 1..N {
                 let mut s = a[(i, j)];
                 for k in 0..j {
                     s -= l[i][k] * l[j][k];
                 }
-                l[i][j] = s / djj;
+                l[i][j] = s * inv;
             }
         }
-        Some(Self { l })
+        Some(Self { l, inv_diag })
     }
 
     /// Solves `A x = b` by forward and back substitution.
@@ -47,7 +53,7 @@ impl<const N: usize> Cholesky<N> {
             for k in 0..i {
                 s -= l[i][k] * y[k];
             }
-            y[i] = s / l[i][i];
+            y[i] = s * self.inv_diag[i];
         }
         let mut x = SVector::<f64, N>::zeros();
         for i in (0..N).rev() {
@@ -55,7 +61,7 @@ impl<const N: usize> Cholesky<N> {
             for k in i + 1..N {
                 s -= l[k][i] * x[k];
             }
-            x[i] = s / l[i][i];
+            x[i] = s * self.inv_diag[i];
         }
         x
     }

@@ -215,14 +215,15 @@ pub(crate) fn levenberg_marquardt(
     loss: Loss,
     start: Pose,
     step_chi2: f64,
+    initial_damping: f64,
 ) -> Option<LmRun> {
     let mut pose = start;
     let mut cur = accumulate(problem, active, loss, &pose)?;
-    let mut lambda = tol::LM_INITIAL_DAMPING;
+    let mut lambda = initial_damping;
     let mut iterations = 0;
     while iterations < problem.gate.max_iterations {
         let step = damped_step(&cur, lambda);
-        if let Some(step) = step.filter(|_| lambda <= tol::LM_INITIAL_DAMPING) {
+        if let Some(step) = step.filter(|_| lambda <= initial_damping) {
             if step.dot(&(cur.h * step)) <= step_chi2 {
                 return Some(done(pose, cur, true, iterations));
             }
@@ -317,7 +318,21 @@ impl Solution {
 pub(crate) fn robust_solve(problem: &Problem, start: Pose, kind: PoseStart) -> Option<Solution> {
     let n = problem.pts.len();
     let all = vec![true; n];
-    let first = levenberg_marquardt(problem, &all, Loss::Squared, start, tol::LM_STEP_CHI2)?;
+    // A warm start sits close to the optimum: nearly undamped steps converge in fewer
+    // iterations there (a rejected step raises the damping as usual).
+    let damping = if kind == PoseStart::Warm {
+        tol::LM_WARM_DAMPING
+    } else {
+        tol::LM_INITIAL_DAMPING
+    };
+    let first = levenberg_marquardt(
+        problem,
+        &all,
+        Loss::Squared,
+        start,
+        tol::LM_STEP_CHI2,
+        damping,
+    )?;
     if first.normal.max_sq <= problem.gate.threshold {
         // Every point passes: the gated cost is the chi-square itself.
         return Some(Solution {
@@ -345,7 +360,14 @@ pub(crate) fn robust_solve_with_outliers(
     let huber = Loss::Huber(problem.gate.huber_sigma);
     // From the start, not from the least-squares pose, which the outliers have pulled.
     // Only a basin is wanted here: a loose tolerance, and no need to have converged.
-    let robust = levenberg_marquardt(problem, &all, huber, start, tol::HUBER_STEP_CHI2);
+    let robust = levenberg_marquardt(
+        problem,
+        &all,
+        huber,
+        start,
+        tol::HUBER_STEP_CHI2,
+        tol::LM_INITIAL_DAMPING,
+    );
     let mut seeds: Vec<(Pose, Vec<bool>)> = Vec::with_capacity(2);
     if let Some(r) = &robust {
         iterations += r.iterations;
@@ -389,7 +411,14 @@ fn gated_refinement(
         if mask.iter().filter(|&&m| m).count() < 4 {
             return None;
         }
-        let run = levenberg_marquardt(problem, &mask, Loss::Squared, pose, tol::LM_STEP_CHI2)?;
+        let run = levenberg_marquardt(
+            problem,
+            &mask,
+            Loss::Squared,
+            pose,
+            tol::LM_STEP_CHI2,
+            tol::LM_INITIAL_DAMPING,
+        )?;
         *iterations += run.iterations;
         gate_points(problem, &run.pose, &mut next_mask);
         if next_mask == mask {
