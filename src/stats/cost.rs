@@ -565,11 +565,15 @@ mod tests {
             })
             .collect();
         let cost = InformationCost::new(&y, &omega, 6).unwrap();
-        let starts: Vec<usize> = (0..49).collect();
-        let mut out = vec![0.0; starts.len()];
-        cost.costs_to(&starts, 49, &mut out);
-        for (&start, &o) in starts.iter().zip(&out) {
-            assert_eq!(o.to_bits(), cost.cost(start, 49).to_bits(), "start {start}");
+        // Every count of leftover starts after the groups of four (0 to 3), and groups alone.
+        for count in [1, 2, 3, 4, 5, 6, 7, 49] {
+            let starts: Vec<usize> = (0..count).map(|k| (k * 7) % 49).collect();
+            let mut out = vec![0.0; starts.len()];
+            cost.costs_to(&starts, 49, &mut out);
+            for (&start, &o) in starts.iter().zip(&out) {
+                let single = cost.cost(start, 49).to_bits();
+                assert_eq!(o.to_bits(), single, "start {start} of {count}");
+            }
         }
     }
 }
