@@ -79,7 +79,8 @@ pub const LM_INITIAL_DAMPING: f64 = 1e-3;
 /// Initial damping of a refinement from the previous frame's pose. There the first
 /// Gauss-Newton step is nearly exact; with `LM_INITIAL_DAMPING` the damping shortens it along
 /// weakly observed directions and most warm refinements needed a third step. On the 100k demo
-/// session 2- instead of 3-step refinements went from 42,000 to 172,000 of 330,000.
+/// session, of about 330,000 refinements, those of two steps went from 42,000 to 136,000 and
+/// those of three from 243,000 to 149,000.
 pub const LM_WARM_DAMPING: f64 = 1e-6;
 
 /// Damping is multiplied by this after a rejected step (Marquardt 1963 used 10).
