@@ -72,8 +72,9 @@ pub const SIM_FOLD_SCAN_STEP: f64 = 1e-4;
 /// standard deviations, a thousandth of what the covariance can resolve.
 pub const LM_STEP_CHI2: f64 = 1e-8;
 
-/// Initial Marquardt damping, relative to the diagonal of the normal matrix. Global and warm
-/// starts are close enough that nearly undamped Gauss-Newton steps are accepted at once.
+/// Initial Marquardt damping, relative to the diagonal of the normal matrix, of every refinement
+/// but the first one from a warm start (`LM_WARM_DAMPING`). Global starts are close enough that
+/// nearly undamped Gauss-Newton steps are accepted at once.
 pub const LM_INITIAL_DAMPING: f64 = 1e-3;
 
 /// Initial damping of a refinement from the previous frame's pose. There the first

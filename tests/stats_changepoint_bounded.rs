@@ -6,7 +6,7 @@
 //! data on a grid that make exact ties.
 
 use mountdrift::stats::changepoint::{optimal_partitioning, pelt, pelt_pruned, Segmentation};
-use mountdrift::stats::cost::{InformationCost, L2Cost};
+use mountdrift::stats::cost::{InformationCost, L2Cost, SegmentCost};
 use mountdrift::stats::penalty::ar1_series;
 use nalgebra::{Matrix6, Vector6};
 use rand::{RngExt, SeedableRng};
@@ -167,6 +167,42 @@ fn bounded_search_handles_short_and_odd_lengths() {
             }
             let fast = pelt(&cost, 3.0, min_size).unwrap();
             let reference = optimal_partitioning(&cost, 3.0, min_size).unwrap();
+            assert_same(&fast, &reference, &format!("n {n}, min_size {min_size}"));
+        }
+    }
+}
+
+/// A cost that refuses empty segments (`start < end` is the trait's contract).
+struct NonEmptyOnly<'a>(&'a L2Cost);
+
+impl SegmentCost for NonEmptyOnly<'_> {
+    fn n_samples(&self) -> usize {
+        self.0.n_samples()
+    }
+
+    fn cost(&self, start: usize, end: usize) -> f64 {
+        assert!(start < end, "cost of the empty segment {start}..{end} asked for");
+        self.0.cost(start, end)
+    }
+
+    fn costs_to(&self, starts: &[usize], end: usize, out: &mut [f64]) {
+        for (o, &start) in out.iter_mut().zip(starts) {
+            *o = self.cost(start, end);
+        }
+    }
+}
+
+/// With a minimum length of one the last covering node can end at the current end: the search
+/// must not ask the cost for that empty tail.
+#[test]
+fn bounded_search_never_asks_for_an_empty_segment() {
+    let mut rng = Pcg64Mcg::seed_from_u64(27);
+    for n in [5usize, 64, 257, 500] {
+        let signal = sparse_steps(&mut rng, n, 3, 2, 2.0);
+        let cost = L2Cost::new(&signal, 3).unwrap();
+        for min_size in [1usize, 2, 3] {
+            let fast = pelt(&NonEmptyOnly(&cost), 5.0, min_size).unwrap();
+            let reference = pelt_pruned(&cost, 5.0, min_size).unwrap();
             assert_same(&fast, &reference, &format!("n {n}, min_size {min_size}"));
         }
     }

@@ -208,7 +208,9 @@ pub(crate) struct LmRun {
 /// undamped) step from the current pose is shorter than `step_chi2` in the metric of the normal
 /// matrix, `δᵀHδ` in chi-square units: the Gauss-Newton estimate of the distance to the optimum
 /// (with `tol::LM_STEP_CHI2` the returned pose is within about 1e-4 standard deviations of it).
-/// `None` if the start puts an active point behind the camera.
+/// The damping starts at `initial_damping`; the convergence test runs only while the damping is
+/// back at or below it (a rejected step multiplies it by `tol::LM_DAMPING_UP`, an accepted one by
+/// `tol::LM_DAMPING_DOWN`). `None` if the start puts an active point behind the camera.
 pub(crate) fn levenberg_marquardt(
     problem: &Problem,
     active: &[bool],
@@ -220,10 +222,13 @@ pub(crate) fn levenberg_marquardt(
     let mut pose = start;
     let mut cur = accumulate(problem, active, loss, &pose)?;
     let mut lambda = initial_damping;
+    // Up and down by factors of ten, the damping may come back to its start an ulp or two
+    // above it: that still counts as back.
+    let undamped = initial_damping * (1.0 + 1e-9);
     let mut iterations = 0;
     while iterations < problem.gate.max_iterations {
         let step = damped_step(&cur, lambda);
-        if let Some(step) = step.filter(|_| lambda <= initial_damping) {
+        if let Some(step) = step.filter(|_| lambda <= undamped) {
             if step.dot(&(cur.h * step)) <= step_chi2 {
                 return Some(done(pose, cur, true, iterations));
             }

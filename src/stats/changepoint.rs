@@ -159,9 +159,13 @@ impl Candidates {
 ///
 /// Tails are evaluated lazily: a child's tail is first bounded below by its right sibling's own
 /// cost plus the parent's tail (superadditivity again), and evaluated only when that bound
-/// does not rule the child out. The node holding the previous end's argmin (whose bound cannot
-/// rule it out) is opened without evaluating its tail; when its children's lower bounds stop
-/// ruling them out, both their tails are evaluated in one lockstep pair. On a 100,000-sample
+/// does not rule the child out. Below the covering nodes (whose tails are evaluated together
+/// at each end), a node holding the previous end's argmin is opened without testing its exact
+/// bound: while the incumbent is that start's total the bound cannot rule it out, and once a
+/// better start lowered the incumbent, opening it only evaluates starts that cannot win or tie.
+/// When its children's lower bounds stop ruling them out, both their tails (the left child's,
+/// and its own, which the right child shares) are evaluated in one lockstep pair. On a
+/// 100,000-sample
 /// series without change the separate chains of evaluation per end (single costs plus lockstep
 /// groups) went from 23 to 8, and the search time nearly halved (docs/benchmarks.md).
 pub fn pelt<C: SegmentCost>(
@@ -403,12 +407,15 @@ impl<'a, C: SegmentCost> BoundedSearch<'a, C> {
         }
         // Every cost `solve_end` itself needs, evaluated together (the segment cost runs
         // several starts in the time of one): the previous argmin's, and the tail
-        // `C(node end, end)` of each covering node that holds an admissible start.
+        // `C(node end, end)` of each covering node that holds an admissible start and ends
+        // before `end` (with a minimum length of one the last one can end at `end`: its tail
+        // is the empty segment's zero, which a cost is not asked for).
         self.tails.clear();
         self.tails.push(prev);
         for &(j, k) in &self.cover {
-            if self.nodes[j][k] != f64::INFINITY {
-                self.tails.push((k + 1) * (LEAF_STARTS << j));
+            let node_end = (k + 1) * (LEAF_STARTS << j);
+            if self.nodes[j][k] != f64::INFINITY && node_end < end {
+                self.tails.push(node_end);
             }
         }
         self.tail_costs.resize(self.tails.len(), 0.0);
@@ -423,8 +430,12 @@ impl<'a, C: SegmentCost> BoundedSearch<'a, C> {
             if self.nodes[j][k] == f64::INFINITY {
                 continue;
             }
-            let tail = self.tail_costs[known];
-            known += 1;
+            let tail = if (k + 1) * (LEAF_STARTS << j) < end {
+                known += 1;
+                self.tail_costs[known - 1]
+            } else {
+                0.0
+            };
             self.visit(j, k, end, &mut incumbent, Tail::Exact(tail));
         }
         self.evaluate(covered..admissible_end, end, &mut incumbent);
@@ -434,11 +445,12 @@ impl<'a, C: SegmentCost> BoundedSearch<'a, C> {
     }
 
     /// Opens node `k` of level `j` unless its lower bound rules it out. The exact tail is
-    /// evaluated only when the bound with the lower bound on it does not, and never for the node
-    /// holding the previous end's argmin: the incumbent's own start lies in it, so its bound
-    /// cannot exceed the incumbent by more than rounding while the incumbent is that start's
-    /// total, and once a better start lowered the incumbent, evaluating the starts of a node the
-    /// exact bound would have ruled out changes nothing (none of them can tie).
+    /// evaluated only when the bound with the lower bound on it does not, and the exact bound of
+    /// the node holding the previous end's argmin is not tested: the incumbent's own start lies
+    /// in it, so that bound cannot exceed the incumbent by more than rounding while the incumbent
+    /// is that start's total, and once a better start lowered the incumbent, evaluating the
+    /// starts of a node the exact bound would have ruled out changes nothing (none of them can
+    /// win or tie). Its tail is still evaluated when its children need it sharp (below).
     fn visit(&mut self, j: usize, k: usize, end: usize, incumbent: &mut Incumbent, tail: Tail) {
         let minimum = self.nodes[j][k];
         if minimum == f64::INFINITY {

@@ -394,7 +394,7 @@ impl SegmentCost for InformationCost {
     /// Evaluates [`LANES`] starts at a time with the factorisations in lockstep (independent
     /// dependency chains, and vector registers where the target has them); each lane performs
     /// exactly the operations of [`cost`](SegmentCost::cost), so the results are the same. The
-    /// last few starts go in a group of two or four (a lane costs about what a single
+    /// last few starts go in a group of two or four (a group costs about what a single
     /// evaluation does: the time goes in the chain of divisions, which the lanes share).
     fn costs_to(&self, starts: &[usize], end: usize, out: &mut [f64]) {
         let mut groups = starts.chunks_exact(LANES);
