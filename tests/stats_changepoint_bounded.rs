@@ -181,7 +181,10 @@ impl SegmentCost for NonEmptyOnly<'_> {
     }
 
     fn cost(&self, start: usize, end: usize) -> f64 {
-        assert!(start < end, "cost of the empty segment {start}..{end} asked for");
+        assert!(
+            start < end,
+            "cost of the empty segment {start}..{end} asked for"
+        );
         self.0.cost(start, end)
     }
 
