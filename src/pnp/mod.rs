@@ -329,7 +329,14 @@ fn solve(
             other => warm_fit = other,
         }
     }
+    let gathered = pts.len();
     prepare::undistort_all(camera, &mut pts)?;
+    // A keypoint that undistortion dropped shifts the indices the warm fit's inliers refer to:
+    // then only its pose carries over, refined again on the points left.
+    let (warm_fit, warm_pose) = match warm_fit {
+        Some(s) if pts.len() != gathered => (None, Some(s.pose)),
+        other => (other, None),
+    };
     let geometry = PointGeometry::of(pts.iter().map(|c| c.model_m));
     geometry.check()?;
     let problem = refine::Problem {
@@ -348,7 +355,7 @@ fn solve(
     if let Some(s) = confirmed {
         return conclude(&problem, &geometry, s, obs.len(), options);
     }
-    let solution = global_solution(&problem, &geometry, warm_fit.map(|s| s.pose), options)?;
+    let solution = global_solution(&problem, &geometry, warm_fit, warm_pose, options)?;
     conclude(&problem, &geometry, solution, obs.len(), options)
 }
 
@@ -393,17 +400,22 @@ fn try_warm(
 
 /// Tries the global starts in order of their initial cost (after the refined warm pose, if any)
 /// and keeps the best refined solution; stops at the first that converges with every point an
-/// inlier. If none does, the mirrors of the starts are tried, then starts from subsets.
+/// inlier. If none does, the mirrors of the starts are tried, then starts from subsets. The warm
+/// fit, when there is one, is the first best (it is already refined); a bare warm pose is
+/// refined first.
 fn global_solution(
     problem: &refine::Problem,
     geometry: &PointGeometry,
+    warm_fit: Option<Solution>,
     warm_pose: Option<Pose>,
     options: &PnpOptions,
 ) -> Result<Solution, Rejection> {
     let n = problem.pts.len();
+    let any_warm = warm_fit.is_some() || warm_pose.is_some();
     let mut search = Search {
-        best: warm_pose.and_then(|p| refine::robust_solve(problem, p, PoseStart::Warm)),
-        any_start: warm_pose.is_some(),
+        best: warm_fit
+            .or_else(|| warm_pose.and_then(|p| refine::robust_solve(problem, p, PoseStart::Warm))),
+        any_start: any_warm,
         any_in_front: false,
     };
     search.any_in_front = search.best.is_some();
